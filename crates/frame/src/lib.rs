@@ -7,8 +7,25 @@
 //!
 //! PUBLIC API CONTRACT (the checker and the language server are written against
 //! these names; keep them).
+//!
+//! Module map: `read` turns bytes into a [`Frame`] (chunking, merging), `tokenize`
+//! splits records into fields, `field` decides what a field means (number,
+//! missing, text), `group` holds [`GroupIndex`] and [`icc1`], `summary` holds
+//! [`summarize`], `mask` the missing bit set, `error` the messages.
 
 use std::path::{Path, PathBuf};
+
+pub mod bench_support;
+mod error;
+mod field;
+mod group;
+mod hash;
+mod mask;
+mod read;
+mod summary;
+mod tokenize;
+
+pub use summary::summarize;
 
 /// Code of a missing value in a categorical column or a group index.
 pub const MISSING_CODE: u32 = u32::MAX;
@@ -56,13 +73,6 @@ pub enum ReadError {
     UnterminatedQuote { path: Option<PathBuf>, line: usize },
 }
 
-impl std::fmt::Display for ReadError {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        let _ = f;
-        todo!()
-    }
-}
-
 impl std::error::Error for ReadError {}
 
 /// A data set of named, equally long columns.
@@ -70,6 +80,12 @@ impl std::error::Error for ReadError {}
 pub struct Frame {
     columns: Vec<Column>,
     n_rows: usize,
+    /// Sparse map from data rows to file lines: `(row, line)` pairs, sorted by
+    /// row, one wherever the line stops being the previous pair's line plus the
+    /// row distance (multi-line quoted fields, blank lines). A file without
+    /// either holds a single pair, so the map costs nothing per row. Empty for
+    /// frames not read from a file, which then count lines as `row + 2`.
+    line_breaks: Vec<(usize, usize)>,
 }
 
 #[derive(Clone, Debug)]
@@ -114,6 +130,9 @@ pub struct TextInNumbers {
 }
 
 /// A bit per row: set = missing.
+///
+/// A bit set rather than `Vec<bool>` because frames stay in the language
+/// server's memory: one bit per value keeps the mask at 1/64 of the numbers.
 #[derive(Clone, Debug, PartialEq, Eq, Default)]
 pub struct Mask {
     bits: Vec<u64>,
@@ -122,9 +141,9 @@ pub struct Mask {
 }
 
 impl Mask {
+    /// Whether `row` is set; rows past the end are not.
     pub fn is_set(&self, row: usize) -> bool {
-        let _ = row;
-        todo!()
+        row < self.len && (self.bits[row / 64] >> (row % 64)) & 1 == 1
     }
     /// Number of set bits.
     pub fn count(&self) -> usize {
@@ -138,17 +157,109 @@ impl Mask {
     }
 }
 
+impl NumericColumn {
+    /// A numeric column whose mask follows the NaNs, so the two can never
+    /// disagree.
+    pub fn from_values(values: Vec<f64>) -> NumericColumn {
+        let missing = Mask::from_nan(&values);
+        NumericColumn { values, missing }
+    }
+}
+
+impl CategoricalColumn {
+    /// A categorical column from texts (`None` = missing), levels in order of
+    /// first appearance, as the reader would build it.
+    pub fn from_texts<S: AsRef<str>>(texts: &[Option<S>]) -> CategoricalColumn {
+        let mut index: std::collections::HashMap<&str, u32> = std::collections::HashMap::new();
+        let mut levels = Vec::new();
+        let codes = texts
+            .iter()
+            .map(|t| match t {
+                None => MISSING_CODE,
+                Some(s) => *index.entry(s.as_ref()).or_insert_with(|| {
+                    levels.push(s.as_ref().to_string());
+                    (levels.len() - 1) as u32
+                }),
+            })
+            .collect();
+        CategoricalColumn {
+            codes,
+            levels,
+            text_in_numbers: None,
+        }
+    }
+}
+
 impl Column {
-    /// Whether row `row` is missing.
+    /// A numeric column (NaN = missing).
+    pub fn numeric(name: impl Into<String>, values: Vec<f64>) -> Column {
+        Column {
+            name: name.into(),
+            data: ColumnData::Numeric(NumericColumn::from_values(values)),
+        }
+    }
+    /// A categorical column from texts (`None` = missing).
+    pub fn categorical<S: AsRef<str>>(name: impl Into<String>, texts: &[Option<S>]) -> Column {
+        Column {
+            name: name.into(),
+            data: ColumnData::Categorical(CategoricalColumn::from_texts(texts)),
+        }
+    }
+    /// Number of rows.
+    pub fn len(&self) -> usize {
+        match &self.data {
+            ColumnData::Numeric(c) => c.values.len(),
+            ColumnData::Categorical(c) => c.codes.len(),
+        }
+    }
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+    /// Whether row `row` is missing (rows past the end are not).
     pub fn is_missing(&self, row: usize) -> bool {
-        let _ = row;
-        todo!()
+        match &self.data {
+            ColumnData::Numeric(c) => c.missing.is_set(row),
+            ColumnData::Categorical(c) => c.codes.get(row) == Some(&MISSING_CODE),
+        }
     }
     pub fn n_missing(&self) -> usize {
-        todo!()
+        match &self.data {
+            ColumnData::Numeric(c) => c.missing.count(),
+            ColumnData::Categorical(c) => c.codes.iter().filter(|&&k| k == MISSING_CODE).count(),
+        }
     }
     pub fn is_numeric(&self) -> bool {
         matches!(self.data, ColumnData::Numeric(_))
+    }
+    /// The numbers of a numeric column.
+    pub fn as_numeric(&self) -> Option<&NumericColumn> {
+        match &self.data {
+            ColumnData::Numeric(c) => Some(c),
+            ColumnData::Categorical(_) => None,
+        }
+    }
+    /// The codes and levels of a categorical column.
+    pub fn as_categorical(&self) -> Option<&CategoricalColumn> {
+        match &self.data {
+            ColumnData::Categorical(c) => Some(c),
+            ColumnData::Numeric(_) => None,
+        }
+    }
+    /// The field of row `row` as text (`None` when missing or past the end),
+    /// numbers printed as group labels are.
+    pub fn text_at(&self, row: usize) -> Option<String> {
+        match &self.data {
+            ColumnData::Numeric(c) => c
+                .values
+                .get(row)
+                .filter(|v| !v.is_nan())
+                .map(|v| group::number_label(*v)),
+            ColumnData::Categorical(c) => c
+                .codes
+                .get(row)
+                .and_then(|&k| c.levels.get(k as usize))
+                .cloned(),
+        }
     }
 }
 
@@ -160,45 +271,96 @@ impl Frame {
         &self.columns
     }
     pub fn column(&self, name: &str) -> Option<&Column> {
-        let _ = name;
-        todo!()
+        self.columns.iter().find(|c| c.name == name)
     }
     pub fn column_index(&self, name: &str) -> Option<usize> {
-        let _ = name;
-        todo!()
+        self.columns.iter().position(|c| c.name == name)
+    }
+    /// Column names in file order.
+    pub fn names(&self) -> impl Iterator<Item = &str> {
+        self.columns.iter().map(|c| c.name.as_str())
     }
     /// 1-based line of the file on which data row `row` (0-based) starts;
     /// differs from `row + 2` only when quoted fields hold line breaks.
     pub fn line_of_row(&self, row: usize) -> usize {
-        let _ = row;
-        todo!()
+        // Last break at or before `row`; rows before the first break (none in
+        // a read frame) fall back to the plain count.
+        let i = self.line_breaks.partition_point(|&(r, _)| r <= row);
+        match i.checked_sub(1).and_then(|j| self.line_breaks.get(j)) {
+            Some(&(r, line)) => line + (row - r),
+            None => row + 2,
+        }
     }
     /// Build a frame from columns (tests, derived data). Panics if lengths differ.
     pub fn from_columns(columns: Vec<Column>) -> Frame {
-        let _ = columns;
-        todo!()
+        match Frame::try_from_columns(columns) {
+            Ok(f) => f,
+            Err(e) => panic!("{e}"),
+        }
+    }
+    /// As [`Frame::from_columns`] but says which column is too long or short
+    /// instead of panicking, for callers building frames from user input.
+    pub fn try_from_columns(columns: Vec<Column>) -> Result<Frame, String> {
+        let n_rows = columns.first().map_or(0, Column::len);
+        if let Some(bad) = columns.iter().find(|c| c.len() != n_rows) {
+            return Err(format!(
+                "column `{}` has {} rows where `{}` has {}",
+                bad.name,
+                bad.len(),
+                columns[0].name,
+                n_rows
+            ));
+        }
+        Ok(Frame {
+            columns,
+            n_rows,
+            line_breaks: Vec::new(),
+        })
     }
 }
 
 /// Read a CSV file. Fields may be quoted (with commas, quotes doubled, line breaks);
 /// a UTF-8 BOM and CRLF line ends are accepted. A header-only file gives a frame
 /// with zero rows.
+///
+/// Surrounding spaces, tabs and carriage returns are not part of a field (also
+/// inside quotes), and wholly empty lines are skipped. A quote is special only
+/// at the start of a field; elsewhere it is an ordinary character. Large files
+/// are parsed on all cores; the result is the same as a single pass.
 pub fn read_csv(path: &Path, options: &ReadOptions) -> Result<Frame, ReadError> {
-    let _ = (path, options);
-    todo!()
+    read::read_path(path, options)
 }
 
 /// As [`read_csv`] but from bytes already in memory (errors carry no path).
 pub fn read_csv_bytes(bytes: &[u8], options: &ReadOptions) -> Result<Frame, ReadError> {
-    let _ = (bytes, options);
-    todo!()
+    read::read_bytes(bytes, options, None, read::Mode::Auto)
+}
+
+/// As [`read_csv_bytes`] but always in one single-threaded pass with the
+/// quote-aware tokenizer: the yardstick the parallel path is tested against.
+pub fn read_csv_bytes_sequential(bytes: &[u8], options: &ReadOptions) -> Result<Frame, ReadError> {
+    read::read_bytes(bytes, options, None, read::Mode::Sequential)
+}
+
+/// As [`read_csv_bytes`] but split into chunks of about `chunk_bytes` bytes
+/// however small the data, so tests can exercise chunk boundaries on tiny files.
+pub fn read_csv_bytes_chunked(
+    bytes: &[u8],
+    options: &ReadOptions,
+    chunk_bytes: usize,
+) -> Result<Frame, ReadError> {
+    read::read_bytes(
+        bytes,
+        options,
+        None,
+        read::Mode::Chunked(chunk_bytes.max(1)),
+    )
 }
 
 /// Only the header's column names, reading as little of the file as possible
 /// (the language server shows these before the whole file is loaded).
 pub fn read_header(path: &Path) -> Result<Vec<String>, ReadError> {
-    let _ = path;
-    todo!()
+    read::read_header_path(path)
 }
 
 /// Dense codes for the groups of an id column (numeric or text).
@@ -222,40 +384,7 @@ pub struct NestViolation {
     pub rows: Vec<usize>,
 }
 
-impl GroupIndex {
-    pub fn from_column(column: &Column) -> GroupIndex {
-        let _ = column;
-        todo!()
-    }
-    pub fn n_groups(&self) -> usize {
-        self.sizes.len()
-    }
-    /// Mean of `values` in each group, skipping NaN; NaN for a group with no values.
-    pub fn means(&self, values: &[f64]) -> Vec<f64> {
-        let _ = values;
-        todo!()
-    }
-    /// Whether any group holds two non-missing values that differ by more than a
-    /// relative 1e-10 of the column's scale.
-    pub fn varies_within(&self, values: &[f64]) -> bool {
-        let _ = values;
-        todo!()
-    }
-    /// Inner groups that appear in more than one outer group (empty = properly nested).
-    pub fn nesting_violations(&self, outer: &GroupIndex) -> Vec<NestViolation> {
-        let _ = outer;
-        todo!()
-    }
-}
-
-/// ICC(1) of `values` by `groups`, one-way ANOVA estimator (Bliese 2000):
-/// (MSB − MSW) / (MSB + (k − 1)·MSW) with k the mean group size; rows with a
-/// missing value or id are skipped. `None` with fewer than two groups or no
-/// within-group degrees of freedom.
-pub fn icc1(values: &[f64], groups: &GroupIndex) -> Option<f64> {
-    let _ = (values, groups);
-    todo!()
-}
+pub use group::icc1;
 
 /// What `describe` prints for one column.
 #[derive(Clone, Debug, PartialEq)]
@@ -278,10 +407,4 @@ pub struct GroupSummary {
     pub grouping: String,
     pub icc1: Option<f64>,
     pub varies_within: bool,
-}
-
-/// Summaries of every column, with ICC(1) and within-variation per grouping column.
-pub fn summarize(frame: &Frame, groupings: &[&str]) -> Vec<ColumnSummary> {
-    let _ = (frame, groupings);
-    todo!()
 }
