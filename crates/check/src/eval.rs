@@ -1,0 +1,388 @@
+//! Column-wise evaluation of resolved values over a frame.
+//!
+//! Missing values are NaN throughout; a result that is not finite (a division by
+//! zero, the log of zero) is missing too. Each operation is one pass over whole
+//! columns, with no allocation per row.
+
+use std::cell::RefCell;
+use std::collections::HashMap;
+use std::rc::Rc;
+
+use frame::{ColumnData, Frame, GroupIndex, MISSING_CODE};
+use syntax::ast::BinaryOp;
+
+use crate::value::Value;
+
+#[derive(Clone, Debug, PartialEq)]
+pub enum Evaluated {
+    Numbers(Vec<f64>),
+    Scalar(f64),
+    Codes {
+        codes: Vec<u32>,
+        levels: Vec<String>,
+    },
+    Text(String),
+}
+
+impl Evaluated {
+    /// As numbers, one per row (categories become 1-based codes so that every
+    /// level differs from zero; missing stays NaN).
+    pub fn to_numbers(&self, n: usize) -> Vec<f64> {
+        match self {
+            Evaluated::Numbers(v) => v.clone(),
+            Evaluated::Scalar(x) => vec![*x; n],
+            Evaluated::Codes { codes, .. } => codes
+                .iter()
+                .map(|&c| {
+                    if c == MISSING_CODE {
+                        f64::NAN
+                    } else {
+                        c as f64 + 1.0
+                    }
+                })
+                .collect(),
+            Evaluated::Text(_) => vec![f64::NAN; n],
+        }
+    }
+}
+
+/// Rows sorted by unit and time, for `lag`, `lead` and `diff`.
+#[derive(Debug)]
+pub struct PanelIndex {
+    pub unit: Rc<GroupIndex>,
+    pub time: Vec<f64>,
+    /// Row numbers sorted by (unit, time); rows with a missing unit or time last.
+    order: Vec<u32>,
+    /// Start of each unit's run in `order`, plus the end.
+    starts: Vec<usize>,
+}
+
+impl PanelIndex {
+    pub fn new(unit: Rc<GroupIndex>, time: Vec<f64>) -> PanelIndex {
+        let n_units = unit.n_groups();
+        let mut order: Vec<u32> = (0..time.len() as u32)
+            .filter(|&r| unit.codes[r as usize] != MISSING_CODE && !time[r as usize].is_nan())
+            .collect();
+        order.sort_unstable_by(|&a, &b| {
+            let (a, b) = (a as usize, b as usize);
+            unit.codes[a]
+                .cmp(&unit.codes[b])
+                .then(time[a].total_cmp(&time[b]))
+        });
+        let mut starts = vec![0usize; n_units + 1];
+        for &r in &order {
+            starts[unit.codes[r as usize] as usize + 1] += 1;
+        }
+        for u in 0..n_units {
+            starts[u + 1] += starts[u];
+        }
+        PanelIndex {
+            unit,
+            time,
+            order,
+            starts,
+        }
+    }
+
+    /// Pairs of rows with the same unit and time (at most `limit`), and how many in all.
+    pub fn duplicates(&self, limit: usize) -> (Vec<(usize, usize)>, usize) {
+        let mut found = Vec::new();
+        let mut count = 0;
+        for w in self.order.windows(2) {
+            let (a, b) = (w[0] as usize, w[1] as usize);
+            if self.unit.codes[a] == self.unit.codes[b] && self.time[a] == self.time[b] {
+                count += 1;
+                if found.len() < limit {
+                    found.push((a, b));
+                }
+            }
+        }
+        (found, count)
+    }
+
+    /// Units whose observed times skip a step of one, and the first such unit.
+    pub fn gaps(&self) -> (usize, Option<usize>) {
+        let mut units = 0;
+        let mut first = None;
+        for u in 0..self.unit.n_groups() {
+            let run = &self.order[self.starts[u]..self.starts[u + 1]];
+            if run
+                .windows(2)
+                .any(|w| self.time[w[1] as usize] - self.time[w[0] as usize] > 1.0)
+            {
+                units += 1;
+                first.get_or_insert(u);
+            }
+        }
+        (units, first)
+    }
+
+    /// The value `k` periods earlier in the same unit (later for negative `k`).
+    fn shift(&self, x: &[f64], k: i64) -> Vec<f64> {
+        let mut out = vec![f64::NAN; x.len()];
+        for u in 0..self.unit.n_groups() {
+            let run = &self.order[self.starts[u]..self.starts[u + 1]];
+            for &r in run {
+                let target = self.time[r as usize] - k as f64;
+                if let Ok(p) = run.binary_search_by(|&s| self.time[s as usize].total_cmp(&target)) {
+                    out[r as usize] = x[run[p] as usize];
+                }
+            }
+        }
+        out
+    }
+}
+
+/// Evaluates values over one frame, caching group indexes.
+pub struct Evaluator<'a> {
+    pub frame: &'a Frame,
+    panel: Option<&'a PanelIndex>,
+    groups: RefCell<HashMap<usize, Rc<GroupIndex>>>,
+}
+
+impl<'a> Evaluator<'a> {
+    pub fn new(frame: &'a Frame, panel: Option<&'a PanelIndex>) -> Self {
+        Evaluator {
+            frame,
+            panel,
+            groups: RefCell::new(HashMap::new()),
+        }
+    }
+
+    pub fn n(&self) -> usize {
+        self.frame.n_rows()
+    }
+
+    /// The group index of a column, built once.
+    pub fn group(&self, column: usize) -> Rc<GroupIndex> {
+        self.groups
+            .borrow_mut()
+            .entry(column)
+            .or_insert_with(|| Rc::new(GroupIndex::from_column(&self.frame.columns()[column])))
+            .clone()
+    }
+
+    pub fn eval(&self, value: &Value) -> Evaluated {
+        let n = self.n();
+        match value {
+            Value::Column(c) => match &self.frame.columns()[*c].data {
+                ColumnData::Numeric(col) => Evaluated::Numbers(col.values.clone()),
+                ColumnData::Categorical(col) => Evaluated::Codes {
+                    codes: col.codes.clone(),
+                    levels: col.levels.clone(),
+                },
+            },
+            Value::Number(x) => Evaluated::Scalar(*x),
+            Value::Text(s) => Evaluated::Text(s.clone()),
+            Value::Neg(x) => map(self.numbers(x), |v| -v),
+            Value::Not(x) => map(self.numbers(x), |v| {
+                if v.is_nan() {
+                    v
+                } else {
+                    f64::from(v == 0.0)
+                }
+            }),
+            Value::Binary(op, a, b) => self.binary(*op, a, b),
+            Value::Within(x, g) => {
+                let x = self.numbers(x);
+                let g = self.group(*g);
+                let means = g.means(&x);
+                Evaluated::Numbers(
+                    x.iter()
+                        .zip(&g.codes)
+                        .map(|(&v, &c)| {
+                            if c == MISSING_CODE {
+                                f64::NAN
+                            } else {
+                                v - means[c as usize]
+                            }
+                        })
+                        .collect(),
+                )
+            }
+            Value::Between(x, g) => {
+                let x = self.numbers(x);
+                let g = self.group(*g);
+                let means = g.means(&x);
+                Evaluated::Numbers(
+                    x.iter()
+                        .zip(&g.codes)
+                        .map(|(&v, &c)| {
+                            if c == MISSING_CODE || v.is_nan() {
+                                f64::NAN
+                            } else {
+                                means[c as usize]
+                            }
+                        })
+                        .collect(),
+                )
+            }
+            Value::Center(x) => {
+                let x = self.numbers(x);
+                let (mean, _) = mean_sd(&x);
+                Evaluated::Numbers(x.iter().map(|v| v - mean).collect())
+            }
+            Value::Z(x) => {
+                let x = self.numbers(x);
+                let (mean, sd) = mean_sd(&x);
+                Evaluated::Numbers(x.iter().map(|v| finite((v - mean) / sd)).collect())
+            }
+            Value::Log(x) => map(self.numbers(x), |v| if v > 0.0 { v.ln() } else { f64::NAN }),
+            Value::Sqrt(x) => map(
+                self.numbers(x),
+                |v| if v >= 0.0 { v.sqrt() } else { f64::NAN },
+            ),
+            Value::Shift { x, k, diff } => {
+                let x = self.numbers(x);
+                let Some(panel) = self.panel else {
+                    return Evaluated::Numbers(vec![f64::NAN; n]);
+                };
+                let shifted = panel.shift(&x, *k);
+                if *diff {
+                    Evaluated::Numbers(x.iter().zip(&shifted).map(|(a, b)| a - b).collect())
+                } else {
+                    Evaluated::Numbers(shifted)
+                }
+            }
+            Value::Categorical { x, .. } => match self.eval(x) {
+                codes @ Evaluated::Codes { .. } => codes,
+                other => numbers_to_codes(&other.to_numbers(n)),
+            },
+        }
+    }
+
+    /// Evaluate as one number per row.
+    pub fn numbers(&self, value: &Value) -> Vec<f64> {
+        self.eval(value).to_numbers(self.n())
+    }
+
+    fn binary(&self, op: BinaryOp, a: &Value, b: &Value) -> Evaluated {
+        let n = self.n();
+        let (ea, eb) = (self.eval(a), self.eval(b));
+        if matches!(op, BinaryOp::Eq | BinaryOp::Ne) {
+            if let Some(r) = compare_levels(op, &ea, &eb).or_else(|| compare_levels(op, &eb, &ea)) {
+                return r;
+            }
+        }
+        let f: fn(f64, f64) -> f64 = match op {
+            BinaryOp::Add => |x, y| x + y,
+            BinaryOp::Sub => |x, y| x - y,
+            BinaryOp::Mul => |x, y| x * y,
+            BinaryOp::Div => |x, y| x / y,
+            BinaryOp::Pow => f64::powf,
+            BinaryOp::Eq => |x, y| f64::from(x == y),
+            BinaryOp::Ne => |x, y| f64::from(x != y),
+            BinaryOp::Lt => |x, y| f64::from(x < y),
+            BinaryOp::Le => |x, y| f64::from(x <= y),
+            BinaryOp::Gt => |x, y| f64::from(x > y),
+            BinaryOp::Ge => |x, y| f64::from(x >= y),
+            BinaryOp::And => |x, y| f64::from(x != 0.0 && y != 0.0),
+            BinaryOp::Or => |x, y| f64::from(x != 0.0 || y != 0.0),
+        };
+        let g = move |x: f64, y: f64| {
+            if x.is_nan() || y.is_nan() {
+                f64::NAN
+            } else {
+                finite(f(x, y))
+            }
+        };
+        match (ea, eb) {
+            (Evaluated::Scalar(x), Evaluated::Scalar(y)) => Evaluated::Scalar(g(x, y)),
+            (Evaluated::Scalar(x), other) => map(other.to_numbers(n), |y| g(x, y)),
+            (other, Evaluated::Scalar(y)) => map(other.to_numbers(n), |x| g(x, y)),
+            (a, b) => {
+                let (a, b) = (a.to_numbers(n), b.to_numbers(n));
+                Evaluated::Numbers(a.iter().zip(&b).map(|(&x, &y)| g(x, y)).collect())
+            }
+        }
+    }
+}
+
+fn compare_levels(op: BinaryOp, cat: &Evaluated, text: &Evaluated) -> Option<Evaluated> {
+    let (Evaluated::Codes { codes, levels }, Evaluated::Text(t)) = (cat, text) else {
+        return None;
+    };
+    let want = levels.iter().position(|l| l == t).map(|p| p as u32);
+    let eq = op == BinaryOp::Eq;
+    Some(Evaluated::Numbers(
+        codes
+            .iter()
+            .map(|&c| {
+                if c == MISSING_CODE {
+                    f64::NAN
+                } else {
+                    f64::from((Some(c) == want) == eq)
+                }
+            })
+            .collect(),
+    ))
+}
+
+fn map(mut v: Vec<f64>, f: impl Fn(f64) -> f64) -> Evaluated {
+    for x in v.iter_mut() {
+        *x = finite(f(*x));
+    }
+    Evaluated::Numbers(v)
+}
+
+fn finite(x: f64) -> f64 {
+    if x.is_finite() {
+        x
+    } else {
+        f64::NAN
+    }
+}
+
+/// Mean and SD (n − 1) of the non-missing values; NaN when undefined.
+pub fn mean_sd(x: &[f64]) -> (f64, f64) {
+    let (mut n, mut sum) = (0usize, 0.0);
+    for &v in x.iter().filter(|v| !v.is_nan()) {
+        n += 1;
+        sum += v;
+    }
+    if n == 0 {
+        return (f64::NAN, f64::NAN);
+    }
+    let mean = sum / n as f64;
+    let ss: f64 = x
+        .iter()
+        .filter(|v| !v.is_nan())
+        .map(|v| (v - mean).powi(2))
+        .sum();
+    let sd = if n > 1 {
+        (ss / (n - 1) as f64).sqrt()
+    } else {
+        f64::NAN
+    };
+    (mean, sd)
+}
+
+/// Categories from numeric codes, levels in ascending numeric order.
+fn numbers_to_codes(x: &[f64]) -> Evaluated {
+    let mut distinct: Vec<f64> = x.iter().copied().filter(|v| !v.is_nan()).collect();
+    distinct.sort_unstable_by(f64::total_cmp);
+    distinct.dedup();
+    let codes = x
+        .iter()
+        .map(|v| {
+            if v.is_nan() {
+                MISSING_CODE
+            } else {
+                distinct
+                    .binary_search_by(|d| d.total_cmp(v))
+                    .map_or(MISSING_CODE, |p| p as u32)
+            }
+        })
+        .collect();
+    let levels = distinct.iter().map(|d| format_number(*d)).collect();
+    Evaluated::Codes { codes, levels }
+}
+
+/// A number as a user would write it: no trailing `.0` for whole numbers.
+pub fn format_number(x: f64) -> String {
+    if x.fract() == 0.0 && x.abs() < 1e15 {
+        format!("{}", x as i64)
+    } else {
+        format!("{x}")
+    }
+}
