@@ -5,7 +5,10 @@
 //! work with. This crate knows nothing of files, data or numbers beyond literals.
 
 pub mod ast;
+mod format;
+mod lexer;
 mod line_index;
+mod parser;
 mod span;
 mod values;
 
@@ -33,13 +36,23 @@ pub struct SyntaxError {
 
 /// Parse a whole file. Never panics, whatever the input.
 pub fn parse(text: &str) -> Parsed {
-    let _ = text;
-    todo!("parser")
+    let lexed = lexer::lex(text);
+    let mut errors = lexed.errors;
+    let file = parser::parse_tokens(text, lexed.tokens, &mut errors);
+    errors.sort_by_key(|e| (e.span.start, e.span.end));
+    Parsed {
+        file,
+        comments: lexed.comments,
+        errors,
+    }
 }
 
 /// Reprint a file in canonical form, keeping comments. Returns `None` when the
 /// file has syntax errors (formatting a broken file would lose text).
 pub fn format(text: &str) -> Option<String> {
-    let _ = text;
-    todo!("formatter")
+    let parsed = parse(text);
+    if !parsed.errors.is_empty() {
+        return None;
+    }
+    Some(format::format_parsed(text, &parsed))
 }
