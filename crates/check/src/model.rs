@@ -584,9 +584,9 @@ impl Ctx<'_> {
             }
         }
         let after_where = keep.iter().filter(|k| **k).count();
-        let mut vars: Vec<(String, Value)> = Vec::new();
+        let mut vars: Vec<(String, Value, Span)> = Vec::new();
         if let Some(o) = &m.outcome {
-            vars.push((o.label.clone(), o.value.clone()));
+            vars.push((o.label.clone(), o.value.clone(), o.span));
         }
         let all_terms = m
             .terms
@@ -594,8 +594,8 @@ impl Ctx<'_> {
             .chain(m.random.iter().flat_map(|r| r.slopes.iter()));
         for t in all_terms {
             for f in &t.factors {
-                if !vars.iter().any(|(l, _)| l == &f.label) {
-                    vars.push((f.label.clone(), f.value.clone()));
+                if !vars.iter().any(|(l, _, _)| l == &f.label) {
+                    vars.push((f.label.clone(), f.value.clone(), f.span));
                 }
             }
         }
@@ -605,14 +605,15 @@ impl Ctx<'_> {
             .chain(m.cluster.iter())
             .chain(m.random.iter().map(|r| &r.group));
         for g in groupings {
-            if !vars.iter().any(|(l, _)| l == &g.name) {
-                vars.push((g.name.clone(), Value::Column(g.column)));
+            if !vars.iter().any(|(l, _, _)| l == &g.name) {
+                vars.push((g.name.clone(), Value::Column(g.column), g.span));
             }
         }
         let _ = structure;
         let mut sample = keep.clone();
         let mut missing_by = Vec::new();
-        for (label, value) in &vars {
+        let mut empty = Vec::new();
+        for (label, value, span) in &vars {
             let missing = missing_rows(&ev.eval(value), n);
             let mut c = 0;
             for r in 0..n {
@@ -624,6 +625,22 @@ impl Ctx<'_> {
             if c > 0 {
                 missing_by.push((label.clone(), c));
             }
+            if c > 0 && c == after_where {
+                empty.push((label.clone(), *span));
+            }
+        }
+        drop(ev);
+        for (label, span) in &empty {
+            let msg = format!(
+                "`{label}` is missing in every row{} of the data, so model `{}` cannot use it",
+                if after_where < n {
+                    " kept by `where`"
+                } else {
+                    ""
+                },
+                m.name
+            );
+            self.push(Diagnostic::error(codes::ALL_MISSING, *span, msg));
         }
         let used = sample.iter().filter(|k| **k).count();
         let rows = RowAccount {
@@ -641,7 +658,7 @@ impl Ctx<'_> {
                 m.name
             );
             self.push(Diagnostic::error(codes::NO_ROWS, m.name_span, msg));
-        } else if n > 0 && used == 0 {
+        } else if n > 0 && used == 0 && empty.is_empty() {
             let msg = format!(
                 "model `{}` has no complete rows: every row misses a value in {}",
                 m.name,
@@ -652,7 +669,7 @@ impl Ctx<'_> {
                     .join(", ")
             );
             self.push(Diagnostic::error(codes::NO_ROWS, m.name_span, msg));
-        } else if rows.dropped_missing > 0 || rows.excluded_by_where > 0 {
+        } else if used > 0 && (rows.dropped_missing > 0 || rows.excluded_by_where > 0) {
             let mut parts = Vec::new();
             if rows.excluded_by_where > 0 {
                 parts.push(format!(

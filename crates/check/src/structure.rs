@@ -37,7 +37,7 @@ impl Ctx<'_> {
                 "a file reads one data source; remove this second `source` statement",
             ));
         }
-        let Some(&(path, missing, span)) = sources.first() else {
+        let Some(&(path, missing, _)) = sources.first() else {
             let needs_data = stmts.iter().any(|s| !matches!(s.kind, StmtKind::Error));
             if needs_data {
                 let start = stmts
@@ -70,7 +70,6 @@ impl Ctx<'_> {
                     self.push(Diagnostic::error(codes::NO_ROWS, path.span, msg));
                 }
                 self.data = Some(view);
-                self.report_all_missing(span);
             }
             Err(e) => {
                 let msg = match &e {
@@ -79,35 +78,16 @@ impl Ctx<'_> {
                         path.value,
                         full.display()
                     ),
-                    other => format!("cannot use data file `{}`: {other}", path.value),
+                    // The reader names the file by its full path; show it as the user wrote it.
+                    other => other.to_string().replace(
+                        &full.display().to_string(),
+                        &format!("data file `{}`", path.value),
+                    ),
                 };
                 self.push(Diagnostic::error(codes::DATA_FILE, path.span, msg));
             }
         }
         Some(full)
-    }
-
-    fn report_all_missing(&mut self, span: Span) {
-        let Some(frame) = self.values() else { return };
-        if frame.n_rows() == 0 {
-            return;
-        }
-        let empty: Vec<String> = frame
-            .columns()
-            .iter()
-            .filter(|c| c.n_missing() == frame.n_rows())
-            .map(|c| format!("`{}`", c.name))
-            .collect();
-        if !empty.is_empty() {
-            let msg = format!(
-                "column{} {} {} missing in every row; a model that uses {} has no data",
-                plural(empty.len()),
-                empty.join(", "),
-                if empty.len() == 1 { "is" } else { "are" },
-                if empty.len() == 1 { "it" } else { "them" }
-            );
-            self.push(Diagnostic::warning(codes::ALL_MISSING, span, msg));
-        }
     }
 
     /// `groups A in B in C`: every level a column, each nested in the next.
@@ -134,11 +114,12 @@ impl Ctx<'_> {
                     .map(|(o, r)| format!("`{o}` (line {})", frame.line_of_row(*r)))
                     .collect();
                 let msg = format!(
-                    "`{a}` is not nested in `{b}`: {a} `{}` appears in {b} {}; {} {a} value{} span more than one {b}",
+                    "`{a}` is not nested in `{b}`: {a} `{}` appears in {b} {}; {} {a} value{} {} more than one {b}",
                     v.inner,
                     places.join(" and "),
                     count(violations.len()),
-                    plural(violations.len())
+                    plural(violations.len()),
+                    if violations.len() == 1 { "spans" } else { "span" }
                 );
                 let at = levels[i].span.cover(levels[i + 1].span);
                 self.push(Diagnostic::error(codes::NOT_NESTED, at, msg));
@@ -191,7 +172,7 @@ impl Ctx<'_> {
         if let Some(&(a, b)) = dups.first() {
             let code = index.unit.codes[a] as usize;
             let msg = format!(
-                "{} `{}` has more than one row for {} {} (lines {} and {}); a panel needs one row per {} and {}, and {} such duplicate{} were found",
+                "{} `{}` has more than one row for {} {} (lines {} and {}); a panel needs one row per {} and {} ({} duplicate{} in all)",
                 unit.name,
                 index.unit.labels[code],
                 time.name,
