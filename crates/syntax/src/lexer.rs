@@ -262,13 +262,16 @@ fn lexer<'src>() -> impl Parser<'src, &'src str, Vec<(Lexeme, SimpleSpan)>, LexE
 
     let space = any()
         .filter(|c: &char| c.is_whitespace() || *c == '\u{feff}')
-        .repeated();
-
-    choice((num_tok, word_tok, string, quoted, comment, punct, bad))
-        .map_with(|lx, e| (lx, e.span()))
-        .padded_by(space)
         .repeated()
-        .collect()
+        .boxed();
+
+    space.clone().ignore_then(
+        choice((num_tok, word_tok, string, quoted, comment, punct, bad))
+            .map_with(|lx, e| (lx, e.span()))
+            .then_ignore(space)
+            .repeated()
+            .collect(),
+    )
 }
 
 /// A hint for a character that cannot start a token, written for someone who
