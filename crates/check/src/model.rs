@@ -696,9 +696,9 @@ impl Ctx<'_> {
                 count(n),
                 parts.join("; ")
             );
-            // A large loss deserves more than a hint: estimates may no longer describe the population.
-            let lost = n - used;
-            let d = if lost * 5 > n {
+            // Losing many rows to missing values deserves more than a hint: the
+            // complete cases may no longer describe the population. `where` is intended.
+            let d = if rows.dropped_missing * 5 > after_where {
                 Diagnostic::warning(codes::ROWS_DROPPED, m.name_span, msg)
             } else {
                 Diagnostic::hint(codes::ROWS_DROPPED, m.name_span, msg)
