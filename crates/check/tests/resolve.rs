@@ -406,3 +406,28 @@ fn checking_without_data_still_reports_what_needs_no_data() {
     );
     assert!(!all.iter().any(|l| l.contains("unknown-column")), "{all:?}");
 }
+
+/// Counts loads, to show the checker reads the data file once per check.
+struct Counting(std::cell::Cell<usize>);
+
+impl check::DataProvider for Counting {
+    fn load(
+        &self,
+        path: &Path,
+        options: &frame::ReadOptions,
+    ) -> Result<check::DataView, frame::ReadError> {
+        self.0.set(self.0.get() + 1);
+        FileLoader.load(path, options)
+    }
+}
+
+#[test]
+fn the_data_file_is_loaded_once_per_check() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../demo-data/suppliers.slope");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let parsed = syntax::parse(&text);
+    let loads = Counting(std::cell::Cell::new(0));
+    let c = check(&text, &parsed, path.parent().unwrap(), &loads);
+    assert_eq!(c.models.len(), 2);
+    assert_eq!(loads.0.get(), 1);
+}
