@@ -55,12 +55,69 @@ impl Missing {
 /// text than silently carried into an estimate.
 #[inline]
 pub(crate) fn parse_number(b: &[u8]) -> Option<f64> {
-    // fast-float accepts a leading '+' and forms like "5." and ".5", which is
-    // what users write; it never panics and rejects trailing characters.
+    if let Some(x) = plain_decimal(b) {
+        return Some(x);
+    }
+    // Anything else that could be a number starts like one; text mostly does
+    // not, and is turned away before the full parser.
+    if !matches!(b.first(), Some(b'0'..=b'9' | b'+' | b'-' | b'.')) {
+        return None;
+    }
+    full_parse(b)
+}
+
+/// fast-float accepts exponents and long mantissas with correct rounding; it
+/// never panics and rejects trailing characters. Kept out of line: its large
+/// stack frame would otherwise be set up for every field.
+#[cold]
+#[inline(never)]
+fn full_parse(b: &[u8]) -> Option<f64> {
     match fast_float2::parse::<f64, _>(b) {
         Ok(x) if x.is_finite() => Some(x),
         _ => None,
     }
+}
+
+const POW10: [f64; 23] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+];
+
+/// The common case of data files, `-123.4567` with no exponent and at most
+/// 2^53 as digits, in one loop. Both the digits as an integer and the power of
+/// ten are then exact doubles, and IEEE division rounds their quotient
+/// correctly, so the result is the same as the full parser's (Clinger 1990).
+/// `None` hands the field to the full parser.
+#[inline]
+pub(crate) fn plain_decimal(b: &[u8]) -> Option<f64> {
+    let (neg, digits) = match b.first()? {
+        b'-' => (true, &b[1..]),
+        b'+' => (false, &b[1..]),
+        _ => (false, b),
+    };
+    // At most 19 digits, so the accumulator cannot overflow.
+    if digits.is_empty() || digits.len() > 19 {
+        return None;
+    }
+    let mut m: u64 = 0;
+    let mut n_digits = 0usize;
+    let mut dot: Option<usize> = None;
+    for (i, &c) in digits.iter().enumerate() {
+        match c {
+            b'0'..=b'9' => {
+                m = m * 10 + u64::from(c - b'0');
+                n_digits += 1;
+            }
+            b'.' if dot.is_none() => dot = Some(i),
+            _ => return None,
+        }
+    }
+    if n_digits == 0 || m > 1 << 53 {
+        return None;
+    }
+    let frac = dot.map_or(0, |d| digits.len() - d - 1);
+    let v = m as f64 / *POW10.get(frac)?;
+    Some(if neg { -v } else { v })
 }
 
 /// Texts of one column of one chunk, as chunk-local codes.
@@ -125,10 +182,12 @@ impl TextBuf {
     }
 }
 
-/// One column of one chunk.
-pub(crate) enum ColBuf {
-    Num(Vec<f64>),
-    Text(TextBuf),
+/// One column of one chunk: numbers go straight into the chunk's window of
+/// the final column vector, so a numeric column is never copied after parsing;
+/// `text` is set once the column turned out to hold text in this chunk.
+pub(crate) struct ColState<'a> {
+    values: &'a mut [f64],
+    pub text: Option<TextBuf>,
 }
 
 /// Collects one chunk: the [`Sink`] the tokenizers feed.
@@ -137,7 +196,7 @@ pub(crate) struct ChunkBuilder<'a> {
     has_quotes: bool,
     width: usize,
     missing: &'a Missing,
-    pub cols: Vec<ColBuf>,
+    pub cols: Vec<ColState<'a>>,
     pub rows: usize,
     /// `(row, line - row)` wherever the difference changes, both chunk-local.
     pub breaks: Vec<(usize, isize)>,
@@ -145,20 +204,22 @@ pub(crate) struct ChunkBuilder<'a> {
 }
 
 impl<'a> ChunkBuilder<'a> {
+    /// `windows` holds one slice per column, at least as long as the chunk
+    /// has records (its newline count, plus one if it does not end in one).
     pub(crate) fn new(
         bytes: &'a [u8],
         has_quotes: bool,
-        width: usize,
         missing: &'a Missing,
-        row_guess: usize,
+        windows: Vec<&'a mut [f64]>,
     ) -> ChunkBuilder<'a> {
         ChunkBuilder {
             bytes,
             has_quotes,
-            width,
+            width: windows.len(),
             missing,
-            cols: (0..width)
-                .map(|_| ColBuf::Num(Vec::with_capacity(row_guess)))
+            cols: windows
+                .into_iter()
+                .map(|values| ColState { values, text: None })
                 .collect(),
             rows: 0,
             breaks: Vec::new(),
@@ -170,29 +231,32 @@ impl<'a> ChunkBuilder<'a> {
 impl Sink for ChunkBuilder<'_> {
     #[inline]
     fn field(&mut self, col: usize, b: &[u8]) {
-        let Some(buf) = self.cols.get_mut(col) else {
+        let Some(state) = self.cols.get_mut(col) else {
             return;
         };
-        match buf {
-            ColBuf::Num(values) => {
-                if self.missing.is_missing(b) {
-                    values.push(f64::NAN);
-                } else if let Some(x) = parse_number(b) {
-                    values.push(x);
-                } else {
-                    let mut text = texts_of_column(
-                        self.bytes,
-                        self.has_quotes,
-                        self.width,
-                        col,
-                        self.rows,
-                        self.missing,
-                    );
-                    text.push(b, self.rows, self.missing);
-                    *buf = ColBuf::Text(text);
-                }
-            }
-            ColBuf::Text(text) => text.push(b, self.rows, self.missing),
+        if let Some(text) = &mut state.text {
+            text.push(b, self.rows, self.missing);
+            return;
+        }
+        let v = if self.missing.is_missing(b) {
+            f64::NAN
+        } else if let Some(x) = parse_number(b) {
+            x
+        } else {
+            let mut text = texts_of_column(
+                self.bytes,
+                self.has_quotes,
+                self.width,
+                col,
+                self.rows,
+                self.missing,
+            );
+            text.push(b, self.rows, self.missing);
+            state.text = Some(text);
+            return;
+        };
+        if let Some(slot) = state.values.get_mut(self.rows) {
+            *slot = v;
         }
     }
 

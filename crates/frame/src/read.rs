@@ -10,7 +10,7 @@
 //! result equals a single pass. If any chunk fails that test, the whole input
 //! is parsed again in one pass.
 
-use crate::field::{texts_of_column, ChunkBuilder, ColBuf, Missing, TextBuf};
+use crate::field::{texts_of_column, ChunkBuilder, Missing, TextBuf};
 use crate::hash::FastMap;
 use crate::tokenize::{tokenize, tokenize_quoted, End, Sink, TokError};
 use crate::{
@@ -37,8 +37,8 @@ pub(crate) enum Mode {
 }
 
 pub(crate) fn read_path(path: &Path, options: &ReadOptions) -> Result<Frame, ReadError> {
-    let bytes = read_file(path)?;
-    read_bytes(&bytes, options, Some(path), Mode::Auto)
+    let bytes = FileBytes::open(path)?;
+    read_bytes(bytes.as_slice(), options, Some(path), Mode::Auto)
 }
 
 fn io_error(path: &Path, e: std::io::Error) -> ReadError {
@@ -48,30 +48,40 @@ fn io_error(path: &Path, e: std::io::Error) -> ReadError {
     }
 }
 
-/// The whole file in memory. Large files are read in parallel pieces: copying
-/// out of the page cache is itself a sizeable share of the load time, and a
-/// memory map would make a file truncated by another program while we read a
-/// crash rather than an error.
-fn read_file(path: &Path) -> Result<Vec<u8>, ReadError> {
-    let file = std::fs::File::open(path).map_err(|e| io_error(path, e))?;
-    let len = file.metadata().map_err(|e| io_error(path, e))?.len() as usize;
-    #[cfg(unix)]
-    if len >= 8 * PARALLEL_MIN_BYTES {
-        use std::os::unix::fs::FileExt;
-        let mut buf = vec![0u8; len];
-        let parts = rayon::current_num_threads().max(1) * 2;
-        let piece = len.div_ceil(parts).max(1);
-        let ok = buf
-            .par_chunks_mut(piece)
-            .enumerate()
-            .all(|(i, dst)| file.read_exact_at(dst, (i * piece) as u64).is_ok());
-        // A file that changed size under us is read again the plain way.
-        if ok && file.metadata().map(|m| m.len() as usize).ok() == Some(len) {
-            return Ok(buf);
+/// The file's bytes: small files are read, large ones mapped.
+enum FileBytes {
+    Owned(Vec<u8>),
+    Mapped(memmap2::Mmap),
+}
+
+impl FileBytes {
+    /// Mapping avoids copying the file out of the page cache into fresh memory,
+    /// which for a large file took longer than parsing half of it; the pages
+    /// are then touched by the parsing threads in parallel.
+    fn open(path: &Path) -> Result<FileBytes, ReadError> {
+        let file = std::fs::File::open(path).map_err(|e| io_error(path, e))?;
+        let len = file.metadata().map_err(|e| io_error(path, e))?.len();
+        if len >= 8 * PARALLEL_MIN_BYTES as u64 {
+            // SAFETY: the map is read-only and lives only while this read
+            // runs; the frame copies everything it keeps. Another program
+            // truncating the file during those moments would end the process
+            // with a bus error, the one risk accepted for the speed, and only
+            // for files of 8 MB and more.
+            if let Ok(map) = unsafe { memmap2::Mmap::map(&file) } {
+                return Ok(FileBytes::Mapped(map));
+            }
+        }
+        let mut buf = Vec::with_capacity(len as usize);
+        std::io::Read::read_to_end(&mut &file, &mut buf).map_err(|e| io_error(path, e))?;
+        Ok(FileBytes::Owned(buf))
+    }
+
+    fn as_slice(&self) -> &[u8] {
+        match self {
+            FileBytes::Owned(v) => v,
+            FileBytes::Mapped(m) => m,
         }
     }
-    let _ = len;
-    std::fs::read(path).map_err(|e| io_error(path, e))
 }
 
 pub(crate) fn read_bytes(
@@ -197,41 +207,53 @@ fn strip_bom(buf: &[u8], at_eof: bool) -> &[u8] {
     }
 }
 
-/// What one chunk produced.
+/// What one chunk produced besides the numbers written into its windows.
 struct ChunkOut {
-    cols: Vec<ColBuf>,
+    /// Per column, the texts if the column held text in this chunk.
+    texts: Vec<Option<TextBuf>>,
     rows: usize,
     /// Newlines in the chunk.
     lines: usize,
     breaks: Vec<(usize, isize)>,
+}
+
+/// What a first, cheap pass learns about a chunk before it is parsed.
+#[derive(Clone, Copy)]
+struct Scan {
+    newlines: usize,
     has_quotes: bool,
 }
 
-enum ChunkFail {
-    /// Byte offset within the chunk where UTF-8 breaks.
-    Utf8(usize),
-    Tok(TokError),
+/// UTF-8 check (`Err` = byte offset of the first bad byte), newline count and
+/// whether quotes occur. The newline count bounds the chunk's records, which
+/// lets every chunk write its numbers into its own window of one column
+/// vector instead of a vector of its own that would be copied afterwards.
+fn scan_chunk(bytes: &[u8], force_quoted: bool) -> Result<Scan, usize> {
+    std::str::from_utf8(bytes).map_err(|e| e.valid_up_to())?;
+    Ok(Scan {
+        newlines: count_newlines(bytes),
+        has_quotes: force_quoted || memchr(b'"', bytes).is_some(),
+    })
 }
 
-fn run_chunk(
-    bytes: &[u8],
-    width: usize,
-    missing: &Missing,
-    force_quoted: bool,
-) -> Result<ChunkOut, ChunkFail> {
-    if let Err(e) = std::str::from_utf8(bytes) {
-        return Err(ChunkFail::Utf8(e.valid_up_to()));
-    }
-    let has_quotes = force_quoted || memchr(b'"', bytes).is_some();
-    let row_guess = memchr_iter(b'\n', bytes).count() + 1;
-    let mut builder = ChunkBuilder::new(bytes, has_quotes, width, missing, row_guess);
-    let end = tokenize(bytes, Some(width), has_quotes, &mut builder).map_err(ChunkFail::Tok)?;
+fn count_newlines(bytes: &[u8]) -> usize {
+    memchr_iter(b'\n', bytes).count()
+}
+
+fn run_chunk<'a>(
+    bytes: &'a [u8],
+    scan: Scan,
+    missing: &'a Missing,
+    windows: Vec<&'a mut [f64]>,
+) -> Result<ChunkOut, TokError> {
+    let width = windows.len();
+    let mut builder = ChunkBuilder::new(bytes, scan.has_quotes, missing, windows);
+    let end = tokenize(bytes, Some(width), scan.has_quotes, &mut builder)?;
     Ok(ChunkOut {
-        cols: builder.cols,
+        texts: builder.cols.into_iter().map(|c| c.text).collect(),
         rows: builder.rows,
         lines: end.lines,
         breaks: builder.breaks,
-        has_quotes,
     })
 }
 
@@ -293,22 +315,52 @@ fn parse(bytes: &[u8], options: &ReadOptions, mode: Mode) -> Result<Frame, ReadE
     };
     let force_quoted = mode == Mode::Sequential;
     let ranges: Vec<(usize, usize)> = cuts.windows(2).map(|w| (w[0], w[1])).collect();
-    let results: Vec<Result<ChunkOut, ChunkFail>> = ranges
+    let scans: Vec<Result<Scan, usize>> = ranges
         .par_iter()
-        .map(|&(a, b)| run_chunk(&data[a..b], width, &missing, force_quoted))
+        .map(|&(a, b)| scan_chunk(&data[a..b], force_quoted))
         .collect();
-
     // Text that is not UTF-8 outranks every other fault, so that the reported
     // error does not depend on how the data was chunked.
-    for (r, &(a, _)) in results.iter().zip(&ranges) {
-        if let Err(ChunkFail::Utf8(off)) = r {
-            let abs = bom + head.pos + a + off;
-            return Err(ReadError::InvalidUtf8 {
-                path: None,
-                line: line_at(bytes, abs),
-            });
+    let mut ok_scans = Vec::with_capacity(scans.len());
+    for (r, &(a, _)) in scans.into_iter().zip(&ranges) {
+        match r {
+            Ok(s) => ok_scans.push(s),
+            Err(off) => {
+                return Err(ReadError::InvalidUtf8 {
+                    path: None,
+                    line: line_at(bytes, bom + head.pos + a + off),
+                })
+            }
         }
     }
+    // A chunk ending in a newline has at most one record per newline; only
+    // an unterminated last line adds one. Exact caps leave no gaps to close.
+    let caps: Vec<usize> = ok_scans
+        .iter()
+        .zip(&ranges)
+        .map(|(s, &(_, b))| s.newlines + usize::from(b > 0 && data[b - 1] != b'\n'))
+        .collect();
+    let total: usize = caps.iter().sum();
+    // Zeroed allocations are lazily mapped: a column that turns out to be
+    // text never touches (and never pays for) its pages.
+    let mut values: Vec<Vec<f64>> = (0..width).map(|_| vec![0.0; total]).collect();
+    let mut windows: Vec<Vec<&mut [f64]>> =
+        caps.iter().map(|_| Vec::with_capacity(width)).collect();
+    for v in values.iter_mut() {
+        let mut rest: &mut [f64] = v;
+        for (w, &cap) in windows.iter_mut().zip(&caps) {
+            let (head, tail) = rest.split_at_mut(cap);
+            w.push(head);
+            rest = tail;
+        }
+    }
+    let results: Vec<Result<ChunkOut, TokError>> = ranges
+        .par_iter()
+        .zip(ok_scans.par_iter())
+        .zip(windows.into_par_iter())
+        .map(|((&(a, b), &scan), win)| run_chunk(&data[a..b], scan, &missing, win))
+        .collect();
+
     let mut lines_before = head.lines;
     let last = results.len().saturating_sub(1);
     let mut outs = Vec::with_capacity(results.len());
@@ -318,17 +370,17 @@ fn parse(bytes: &[u8], options: &ReadOptions, mode: Mode) -> Result<Frame, ReadE
                 lines_before += out.lines;
                 outs.push(out);
             }
-            Err(ChunkFail::Tok(TokError::Unterminated { .. })) if i != last => {
+            Err(TokError::Unterminated { .. }) if i != last => {
                 // A boundary fell inside a quoted field: one pass instead.
                 return parse(bytes, options, Mode::Sequential);
             }
-            Err(ChunkFail::Tok(TokError::Unterminated { line })) => {
+            Err(TokError::Unterminated { line }) => {
                 return Err(ReadError::UnterminatedQuote {
                     path: None,
                     line: lines_before + line + 1,
                 })
             }
-            Err(ChunkFail::Tok(TokError::Ragged { line, found })) => {
+            Err(TokError::Ragged { line, found }) => {
                 return Err(ReadError::Ragged {
                     path: None,
                     line: lines_before + line + 1,
@@ -336,21 +388,33 @@ fn parse(bytes: &[u8], options: &ReadOptions, mode: Mode) -> Result<Frame, ReadE
                     found,
                 })
             }
-            Err(ChunkFail::Utf8(_)) => {
-                return Err(ReadError::InvalidUtf8 {
-                    path: None,
-                    line: 0,
-                })
-            }
         }
     }
+    let metas: Vec<ChunkMeta<'_>> = ranges
+        .iter()
+        .zip(&ok_scans)
+        .zip(&caps)
+        .scan(0, |slot0, ((&(a, b), s), &cap)| {
+            let m = ChunkMeta {
+                slot0: *slot0,
+                row0: 0,
+                rows: 0,
+                bytes: &data[a..b],
+                has_quotes: s.has_quotes,
+            };
+            *slot0 += cap;
+            Some(m)
+        })
+        .collect();
     Ok(merge(
-        names, outs, &ranges, data, head.lines, width, &missing,
+        names, values, outs, metas, head.lines, width, &missing,
     ))
 }
 
-/// A chunk's place in the whole: first row and the bytes to re-tokenize.
+/// A chunk's place in the whole: where its window starts, its first row and
+/// the bytes to re-tokenize.
 struct ChunkMeta<'a> {
+    slot0: usize,
     row0: usize,
     rows: usize,
     bytes: &'a [u8],
@@ -359,19 +423,18 @@ struct ChunkMeta<'a> {
 
 fn merge(
     names: Vec<String>,
+    values: Vec<Vec<f64>>,
     outs: Vec<ChunkOut>,
-    ranges: &[(usize, usize)],
-    data: &[u8],
+    mut metas: Vec<ChunkMeta<'_>>,
     head_lines: usize,
     width: usize,
     missing: &Missing,
 ) -> Frame {
-    let mut metas = Vec::with_capacity(outs.len());
     let mut line_breaks: Vec<(usize, usize)> = Vec::new();
     let mut row0 = 0;
     let mut line0 = head_lines;
-    let mut per_col: Vec<Vec<ColBuf>> = (0..width).map(|_| Vec::new()).collect();
-    for (out, &(a, b)) in outs.into_iter().zip(ranges) {
+    let mut per_col: Vec<Vec<Option<TextBuf>>> = (0..width).map(|_| Vec::new()).collect();
+    for (out, meta) in outs.into_iter().zip(metas.iter_mut()) {
         for &(r, delta) in &out.breaks {
             let row = row0 + r;
             // Chunk-local line of the row, then 1-based in the file.
@@ -381,26 +444,23 @@ fn merge(
                 line_breaks.push((row, line));
             }
         }
-        metas.push(ChunkMeta {
-            row0,
-            rows: out.rows,
-            bytes: &data[a..b],
-            has_quotes: out.has_quotes,
-        });
+        meta.row0 = row0;
+        meta.rows = out.rows;
         row0 += out.rows;
         line0 += out.lines;
-        for (dst, buf) in per_col.iter_mut().zip(out.cols) {
-            dst.push(buf);
+        for (dst, t) in per_col.iter_mut().zip(out.texts) {
+            dst.push(t);
         }
     }
     let n_rows = row0;
     let columns: Vec<Column> = names
         .into_par_iter()
+        .zip(values)
         .zip(per_col)
         .enumerate()
-        .map(|(col, (name, bufs))| Column {
+        .map(|(col, ((name, vals), texts))| Column {
             name,
-            data: merge_column(bufs, &metas, n_rows, width, col, missing),
+            data: merge_column(vals, texts, &metas, n_rows, width, col, missing),
         })
         .collect();
     line_breaks.shrink_to_fit();
@@ -412,39 +472,38 @@ fn merge(
 }
 
 fn merge_column(
-    mut bufs: Vec<ColBuf>,
+    mut values: Vec<f64>,
+    texts: Vec<Option<TextBuf>>,
     metas: &[ChunkMeta<'_>],
     n_rows: usize,
     width: usize,
     col: usize,
     missing: &Missing,
 ) -> ColumnData {
-    if bufs.iter().all(|b| matches!(b, ColBuf::Num(_))) {
-        let values = if bufs.len() == 1 {
-            match bufs.pop() {
-                Some(ColBuf::Num(v)) => v,
-                _ => Vec::new(),
+    if texts.iter().all(Option::is_none) {
+        // Close the gaps left by chunks with fewer records than newlines
+        // (quoted line breaks, blank lines); usually there are none.
+        let mut dst = 0;
+        for m in metas {
+            if m.slot0 != dst {
+                values.copy_within(m.slot0..m.slot0 + m.rows, dst);
             }
-        } else {
-            let mut values = Vec::with_capacity(n_rows);
-            for b in bufs {
-                if let ColBuf::Num(v) = b {
-                    values.extend_from_slice(&v);
-                }
-            }
-            values
-        };
-        let mut values = values;
-        values.shrink_to_fit();
+            dst += m.rows;
+        }
+        values.truncate(n_rows);
+        if values.capacity() - n_rows > n_rows / 16 {
+            values.shrink_to_fit();
+        }
         return ColumnData::Numeric(NumericColumn::from_values(values));
     }
+    drop(values);
     // Text somewhere: the numeric chunks give up their texts again.
-    let texts: Vec<TextBuf> = bufs
+    let texts: Vec<TextBuf> = texts
         .into_par_iter()
         .zip(metas.par_iter())
-        .map(|(b, m)| match b {
-            ColBuf::Text(t) => t,
-            ColBuf::Num(_) => texts_of_column(m.bytes, m.has_quotes, width, col, m.rows, missing),
+        .map(|(t, m)| match t {
+            Some(t) => t,
+            None => texts_of_column(m.bytes, m.has_quotes, width, col, m.rows, missing),
         })
         .collect();
     let mut index: FastMap<&[u8], u32> = FastMap::default();

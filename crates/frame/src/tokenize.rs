@@ -84,19 +84,7 @@ pub(crate) fn tokenize_plain<S: Sink>(
         if is_blank_line(rec) {
             continue;
         }
-        let mut col = 0;
-        let mut start = 0;
-        for i in memchr_iter(b',', rec) {
-            if col < limit {
-                sink.field(col, trim(&rec[start..i]));
-            }
-            col += 1;
-            start = i + 1;
-        }
-        if col < limit {
-            sink.field(col, trim(&rec[start..]));
-        }
-        col += 1;
+        let col = split_plain(rec, limit, sink);
         check_width(width, col, rec_line)?;
         if !sink.end_record(rec_line) {
             break;
@@ -130,60 +118,104 @@ pub(crate) fn tokenize_quoted<S: Sink>(
             line += 1;
             continue;
         }
-        let mut col = 0;
-        loop {
-            // At the start of a field; `pos <= len`.
-            if pos < len && buf[pos] == b'"' {
-                let open_line = line;
-                pos += 1;
-                scratch.clear();
-                loop {
-                    let Some(i) = memchr(b'"', &buf[pos..]) else {
-                        return Err(TokError::Unterminated { line: open_line });
-                    };
-                    let seg = &buf[pos..pos + i];
-                    line += memchr_iter(b'\n', seg).count();
-                    scratch.extend_from_slice(seg);
-                    pos += i + 1;
-                    if pos < len && buf[pos] == b'"' {
-                        scratch.push(b'"');
-                        pos += 1;
-                    } else {
-                        break;
-                    }
-                }
-                let end = memchr2(b',', b'\n', &buf[pos..]).map_or(len, |i| pos + i);
-                scratch.extend_from_slice(&buf[pos..end]);
-                pos = end;
-                if col < limit {
-                    sink.field(col, trim(&scratch));
-                }
-            } else {
-                let end = memchr2(b',', b'\n', &buf[pos..]).map_or(len, |i| pos + i);
-                if col < limit {
-                    sink.field(col, trim(&buf[pos..end]));
-                }
-                pos = end;
+        // Most records of a quoted file hold no quote: split those like the
+        // plain tokenizer does, and run the state machine on the others.
+        let eol = memchr(b'\n', &buf[pos..]).map_or(len, |i| pos + i);
+        let col = if memchr(b'"', &buf[pos..eol]).is_none() {
+            let col = split_plain(&buf[pos..eol], limit, sink);
+            pos = (eol + 1).min(len);
+            if eol < len {
+                line += 1;
             }
-            col += 1;
-            if pos >= len {
-                break;
-            }
-            if buf[pos] == b',' {
-                pos += 1;
-                continue;
-            }
-            // A newline ends the record.
-            pos += 1;
-            line += 1;
-            break;
-        }
+            col
+        } else {
+            quoted_record(buf, &mut pos, &mut line, limit, &mut scratch, sink)?
+        };
         check_width(width, col, rec_line)?;
         if !sink.end_record(rec_line) {
             break;
         }
     }
     Ok(End { pos, lines: line })
+}
+
+/// Fields of one record without quotes; returns how many there were.
+#[inline]
+fn split_plain<S: Sink>(rec: &[u8], limit: usize, sink: &mut S) -> usize {
+    let mut col = 0;
+    let mut start = 0;
+    for i in memchr_iter(b',', rec) {
+        if col < limit {
+            sink.field(col, trim(&rec[start..i]));
+        }
+        col += 1;
+        start = i + 1;
+    }
+    if col < limit {
+        sink.field(col, trim(&rec[start..]));
+    }
+    col + 1
+}
+
+/// One record that holds a quote, from `*pos` at its start; advances `*pos`
+/// past its end and `*line` by the newlines passed. Returns the field count.
+fn quoted_record<S: Sink>(
+    buf: &[u8],
+    pos: &mut usize,
+    line: &mut usize,
+    limit: usize,
+    scratch: &mut Vec<u8>,
+    sink: &mut S,
+) -> Result<usize, TokError> {
+    let len = buf.len();
+    let mut col = 0;
+    loop {
+        // At the start of a field; `*pos <= len`.
+        if *pos < len && buf[*pos] == b'"' {
+            let open_line = *line;
+            *pos += 1;
+            scratch.clear();
+            loop {
+                let Some(i) = memchr(b'"', &buf[*pos..]) else {
+                    return Err(TokError::Unterminated { line: open_line });
+                };
+                let seg = &buf[*pos..*pos + i];
+                *line += memchr_iter(b'\n', seg).count();
+                scratch.extend_from_slice(seg);
+                *pos += i + 1;
+                if *pos < len && buf[*pos] == b'"' {
+                    scratch.push(b'"');
+                    *pos += 1;
+                } else {
+                    break;
+                }
+            }
+            let end = memchr2(b',', b'\n', &buf[*pos..]).map_or(len, |i| *pos + i);
+            scratch.extend_from_slice(&buf[*pos..end]);
+            *pos = end;
+            if col < limit {
+                sink.field(col, trim(scratch));
+            }
+        } else {
+            let end = memchr2(b',', b'\n', &buf[*pos..]).map_or(len, |i| *pos + i);
+            if col < limit {
+                sink.field(col, trim(&buf[*pos..end]));
+            }
+            *pos = end;
+        }
+        col += 1;
+        if *pos >= len {
+            return Ok(col);
+        }
+        if buf[*pos] == b',' {
+            *pos += 1;
+            continue;
+        }
+        // A newline ends the record.
+        *pos += 1;
+        *line += 1;
+        return Ok(col);
+    }
 }
 
 /// Either tokenizer, by whether the bytes hold a quote.

@@ -6,6 +6,9 @@ use frame::{
 };
 use std::path::Path;
 
+mod common;
+use common::assert_frames_equal;
+
 fn read(s: &[u8]) -> Result<Frame, ReadError> {
     read_csv_bytes(s, &ReadOptions::default())
 }
@@ -342,30 +345,5 @@ fn stray_quote_falls_back_to_one_pass() {
     assert_eq!(e.line(), Some(377));
     for chunk in [3, 50, 200] {
         assert_eq!(read_csv_bytes_chunked(&bad, &opts, chunk).unwrap_err(), e);
-    }
-}
-
-pub fn assert_frames_equal(a: &Frame, b: &Frame) {
-    assert_eq!(a.n_rows(), b.n_rows());
-    assert_eq!(a.columns().len(), b.columns().len());
-    for (ca, cb) in a.columns().iter().zip(b.columns()) {
-        assert_eq!(ca.name, cb.name);
-        match (&ca.data, &cb.data) {
-            (ColumnData::Numeric(x), ColumnData::Numeric(y)) => {
-                assert_eq!(x.missing, y.missing, "column {}", ca.name);
-                for (u, v) in x.values.iter().zip(&y.values) {
-                    assert!(u == v || (u.is_nan() && v.is_nan()), "column {}", ca.name);
-                }
-            }
-            (ColumnData::Categorical(x), ColumnData::Categorical(y)) => {
-                assert_eq!(x.codes, y.codes, "column {}", ca.name);
-                assert_eq!(x.levels, y.levels, "column {}", ca.name);
-                assert_eq!(x.text_in_numbers, y.text_in_numbers, "column {}", ca.name);
-            }
-            _ => panic!("column {} differs in type", ca.name),
-        }
-    }
-    for r in 0..a.n_rows() {
-        assert_eq!(a.line_of_row(r), b.line_of_row(r), "row {r}");
     }
 }

@@ -1,0 +1,6 @@
+//! `slopewise bench ...`: measurements of the program's own speed, so that a
+//! regression in loading shows up as a number rather than as a feeling.
+
+pub mod load;
+
+pub use load::run_load;
