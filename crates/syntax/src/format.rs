@@ -315,20 +315,29 @@ impl<'a> Layout<'a> {
     }
 
     /// Comments inside a statement's text; they are moved to lines before it.
-    fn inner_comments(&self, start: usize, end: usize, skip: &[(usize, usize)]) -> Vec<&'a Comment> {
+    fn inner_comments(
+        &self,
+        start: usize,
+        end: usize,
+        skip: &[(usize, usize)],
+    ) -> Vec<&'a Comment> {
         self.comments
             .iter()
             .filter(|c| c.span.start >= start && c.span.start < end)
-            .filter(|c| !skip.iter().any(|(s, e)| c.span.start >= *s && c.span.start < *e))
+            .filter(|c| {
+                !skip
+                    .iter()
+                    .any(|(s, e)| c.span.start >= *s && c.span.start < *e)
+            })
             .collect()
     }
 
     /// The comment after a statement on the line where it ends.
     fn trailing(&self, start: usize, end: usize, limit: usize) -> Option<&'a Comment> {
         let line = self.last_line(start, end);
-        self.comments
-            .iter()
-            .find(|c| c.span.start >= end && c.span.start < limit && self.line(c.span.start) == line)
+        self.comments.iter().find(|c| {
+            c.span.start >= end && c.span.start < limit && self.line(c.span.start) == line
+        })
     }
 
     fn push_line(&mut self, indent: &str, text: &str, trailing: Option<&Comment>) {

@@ -173,10 +173,7 @@ fn lexer<'src>() -> impl Parser<'src, &'src str, Vec<(Lexeme, SimpleSpan)>, LexE
         Some('t') => Ok('\t'),
         other => Err(other),
     });
-    let str_char = choice((
-        escape,
-        none_of("\"\\\n").map(Ok::<char, Option<char>>),
-    ));
+    let str_char = choice((escape, none_of("\"\\\n").map(Ok::<char, Option<char>>)));
     let string = just('"')
         .ignore_then(str_char.repeated().collect::<Vec<_>>())
         .then(just('"').or_not())

@@ -270,7 +270,9 @@ fn expr_parser<'t>() -> P<'t, DExpr> {
                 let mut all = Vec::with_capacity(exps.len() + 1);
                 all.push(base);
                 all.extend(exps);
-                let mut acc = all.pop().unwrap_or_else(|| error_expr(SimpleSpan::new((), 0..0)));
+                let mut acc = all
+                    .pop()
+                    .unwrap_or_else(|| error_expr(SimpleSpan::new((), 0..0)));
                 while let Some(lhs) = all.pop() {
                     acc = binary(BinaryOp::Pow, lhs, acc);
                 }
@@ -283,20 +285,26 @@ fn expr_parser<'t>() -> P<'t, DExpr> {
         let product = neg
             .clone()
             .foldl(
-                choice((op(Punct::Star, BinaryOp::Mul), op(Punct::Slash, BinaryOp::Div)))
-                    .labelled("an operator")
-                    .then(neg)
-                    .repeated(),
+                choice((
+                    op(Punct::Star, BinaryOp::Mul),
+                    op(Punct::Slash, BinaryOp::Div),
+                ))
+                .labelled("an operator")
+                .then(neg)
+                .repeated(),
                 |l, (o, r)| binary(o, l, r),
             )
             .boxed();
         let sum = product
             .clone()
             .foldl(
-                choice((op(Punct::Plus, BinaryOp::Add), op(Punct::Minus, BinaryOp::Sub)))
-                    .labelled("an operator")
-                    .then(product)
-                    .repeated(),
+                choice((
+                    op(Punct::Plus, BinaryOp::Add),
+                    op(Punct::Minus, BinaryOp::Sub),
+                ))
+                .labelled("an operator")
+                .then(product)
+                .repeated(),
                 |l, (o, r)| binary(o, l, r),
             )
             .boxed();
@@ -363,12 +371,13 @@ fn expr<'t>() -> P<'t, Expr> {
 
 /// Terms of a formula or a `vary` list: products of names and calls with powers.
 fn term<'t>() -> P<'t, Term> {
-    let atom = name("a term")
-        .then(call_args(expr_parser()).or_not())
-        .map(|(func, args)| match args {
-            Some((args, args_span)) => Atom::Call(make_call(func, args, args_span).0),
-            None => Atom::Name(func),
-        });
+    let atom =
+        name("a term")
+            .then(call_args(expr_parser()).or_not())
+            .map(|(func, args)| match args {
+                Some((args, args_span)) => Atom::Call(make_call(func, args, args_span).0),
+                None => Atom::Name(func),
+            });
     let power = punct(Punct::Caret)
         .ignore_then(
             tok_span().validate(|(t, s), _, emitter| {
@@ -624,13 +633,13 @@ fn model_stmt<'t>(ls: LineStarts) -> P<'t, ModelStmt> {
         .then(terms)
         .map(|((outcome, ()), terms)| ModelStmtKind::Formula { outcome, terms });
 
-    let keyword_stmt = choice((fixed, vary, errors, estimate, df, where_))
-        .labelled("a model statement (a formula, `fixed`, `vary`, `errors`, `estimate`, `df` or `where`)");
-    let stmt = choice((keyword_stmt, formula))
-        .map_with(|kind, e| ModelStmt {
-            kind,
-            span: sp(e.span()),
-        });
+    let keyword_stmt = choice((fixed, vary, errors, estimate, df, where_)).labelled(
+        "a model statement (a formula, `fixed`, `vary`, `errors`, `estimate`, `df` or `where`)",
+    );
+    let stmt = choice((keyword_stmt, formula)).map_with(|kind, e| ModelStmt {
+        kind,
+        span: sp(e.span()),
+    });
 
     let stop = tok_span()
         .filter(move |(t, s)| ls.model_resync(t, *s))
@@ -638,7 +647,11 @@ fn model_stmt<'t>(ls: LineStarts) -> P<'t, ModelStmt> {
     let skip = tok_span()
         .filter(|(t, _)| *t != Token::P(Punct::RBrace))
         .ignored()
-        .then(skip_group().or(any().and_is(stop.not()).ignored()).repeated())
+        .then(
+            skip_group()
+                .or(any().and_is(stop.not()).ignored())
+                .repeated(),
+        )
         .map_with(|_, e| ModelStmt {
             kind: ModelStmtKind::Error,
             span: sp(e.span()),
@@ -724,7 +737,6 @@ fn model<'t>(ls: LineStarts) -> P<'t, StmtKind> {
         .then(punct(Punct::LBrace).labelled("`{` after the model name"))
         .then(
             body_end
-                .clone()
                 .not()
                 .ignore_then(model_stmt(ls))
                 .repeated()
@@ -781,7 +793,9 @@ fn statement<'t>(ls: LineStarts) -> P<'t, Stmt> {
         .map(|levels| StmtKind::Groups { levels });
     let panel = kw("panel")
         .ignore_then(name("the unit id column"))
-        .then_ignore(kw("over").labelled("`over` and the time column, as in `panel firm over year`"))
+        .then_ignore(
+            kw("over").labelled("`over` and the time column, as in `panel firm over year`"),
+        )
         .then(name("the time column"))
         .map(|(unit, time)| StmtKind::Panel { unit, time });
     let let_ = kw("let")
@@ -816,14 +830,20 @@ fn statement<'t>(ls: LineStarts) -> P<'t, Stmt> {
     let regions = kw("regions")
         .ignore_then(target("regions"))
         .then(across())
-        .then(kw("alpha").ignore_then(number("the significance level, such as 0.05")).or_not())
+        .then(
+            kw("alpha")
+                .ignore_then(number("the significance level, such as 0.05"))
+                .or_not(),
+        )
         .then(bootstrap())
-        .map(|(((target, moderator), alpha), bootstrap)| StmtKind::Regions {
-            target,
-            moderator,
-            alpha,
-            bootstrap,
-        });
+        .map(
+            |(((target, moderator), alpha), bootstrap)| StmtKind::Regions {
+                target,
+                moderator,
+                alpha,
+                bootstrap,
+            },
+        );
     let turning = kw("turning")
         .ignore_then(target("turning"))
         .then(across().then(at()).or_not())
@@ -887,7 +907,11 @@ fn statement<'t>(ls: LineStarts) -> P<'t, Stmt> {
     let stop = any().filter(top_start).ignored();
     let skip = any()
         .ignored()
-        .then(skip_group().or(any().and_is(stop.not()).ignored()).repeated())
+        .then(
+            skip_group()
+                .or(any().and_is(stop.not()).ignored())
+                .repeated(),
+        )
         .map_with(|_, e| Stmt {
             kind: StmtKind::Error,
             span: sp(e.span()),
@@ -945,8 +969,19 @@ fn continues(t: &Token) -> bool {
         Token::P(p) => !matches!(p, Punct::RParen | Punct::RBrace),
         Token::Word(w) | Token::Kw(w) => matches!(
             w.as_str(),
-            "and" | "or" | "not" | "in" | "over" | "across" | "at" | "by" | "to" | "alpha"
-                | "bootstrap" | "seed" | "missing"
+            "and"
+                | "or"
+                | "not"
+                | "in"
+                | "over"
+                | "across"
+                | "at"
+                | "by"
+                | "to"
+                | "alpha"
+                | "bootstrap"
+                | "seed"
+                | "missing"
         ),
         _ => false,
     }
@@ -1021,8 +1056,9 @@ fn message(e: &Rich<'_, Token>) -> String {
             if items.len() > 1 {
                 let expression = items.iter().any(|i| i == "an expression");
                 items.retain(|i| {
-                    !matches!(i.as_str(), "`(`" | "`{`" | "an operator")
-                        && !(expression && matches!(i.as_str(), "`-`" | "`not`"))
+                    let noise = matches!(i.as_str(), "`(`" | "`{`" | "an operator")
+                        || (expression && matches!(i.as_str(), "`-`" | "`not`"));
+                    !noise
                 });
             }
             let found = describe(&found.as_ref().map(|t| (**t).clone()));
@@ -1087,7 +1123,10 @@ pub(crate) fn parse_tokens(
             continue;
         }
         let message = message(&e);
-        if !errors.iter().any(|x| x.span == span && x.message == message) {
+        if !errors
+            .iter()
+            .any(|x| x.span == span && x.message == message)
+        {
             errors.push(SyntaxError { span, message });
         }
     }

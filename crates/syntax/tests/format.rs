@@ -9,7 +9,11 @@ use syntax::{format, parse};
 fn check(text: &str, expect: Expect) {
     let out = format(text).expect("input has no syntax errors");
     expect.assert_eq(&out);
-    assert_eq!(format(&out).as_deref(), Some(out.as_str()), "not idempotent");
+    assert_eq!(
+        format(&out).as_deref(),
+        Some(out.as_str()),
+        "not idempotent"
+    );
     assert_eq!(
         common::strip_spans(&parse(&out)),
         common::strip_spans(&parse(text)),

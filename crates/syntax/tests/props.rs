@@ -27,19 +27,80 @@ compare full, other
 "#;
 
 const WORDS: &[&str] = &[
-    "source", "groups", "panel", "let", "where", "model", "probe", "regions", "turning",
-    "effect", "plot", "compare", "fixed", "vary", "errors", "estimate", "df", "intercept", "by",
-    "in", "over", "across", "at", "to", "alpha", "bootstrap", "seed", "missing", "and", "or",
-    "not", "x", "y", "`a b`", "años", "mean", "p90", "-1sd", "+1sd", "0.5sd", "2", "1.5e3", "\"f\"",
-    "=", "+", "-", "*", "/", "^", "(", ")", "{", "}", ",", ":", "<", ">=", "==", "!=", "#c\n",
-    "\n", "$", "log(x)", "within(x, g)",
+    "source",
+    "groups",
+    "panel",
+    "let",
+    "where",
+    "model",
+    "probe",
+    "regions",
+    "turning",
+    "effect",
+    "plot",
+    "compare",
+    "fixed",
+    "vary",
+    "errors",
+    "estimate",
+    "df",
+    "intercept",
+    "by",
+    "in",
+    "over",
+    "across",
+    "at",
+    "to",
+    "alpha",
+    "bootstrap",
+    "seed",
+    "missing",
+    "and",
+    "or",
+    "not",
+    "x",
+    "y",
+    "`a b`",
+    "años",
+    "mean",
+    "p90",
+    "-1sd",
+    "+1sd",
+    "0.5sd",
+    "2",
+    "1.5e3",
+    "\"f\"",
+    "=",
+    "+",
+    "-",
+    "*",
+    "/",
+    "^",
+    "(",
+    ")",
+    "{",
+    "}",
+    ",",
+    ":",
+    "<",
+    ">=",
+    "==",
+    "!=",
+    "#c\n",
+    "\n",
+    "$",
+    "log(x)",
+    "within(x, g)",
 ];
 
 /// Checks the invariants every input must satisfy.
 fn check_any(text: &str) {
     let p = parse(text);
     for e in &p.errors {
-        assert!(e.span.start <= e.span.end && e.span.end <= text.len(), "{e:?}");
+        assert!(
+            e.span.start <= e.span.end && e.span.end <= text.len(),
+            "{e:?}"
+        );
         assert!(!e.message.is_empty());
     }
     for s in &p.file.stmts {
@@ -48,7 +109,11 @@ fn check_any(text: &str) {
     let formatted = format(text);
     assert_eq!(formatted.is_some(), p.errors.is_empty());
     if let Some(out) = formatted {
-        assert_eq!(format(&out).as_deref(), Some(out.as_str()), "not idempotent:\n{text}");
+        assert_eq!(
+            format(&out).as_deref(),
+            Some(out.as_str()),
+            "not idempotent:\n{text}"
+        );
         assert_eq!(
             common::strip_spans(&parse(&out)),
             common::strip_spans(&p),
@@ -71,7 +136,12 @@ fn token_soup() -> impl Strategy<Value = String> {
 /// A valid file with random cuts, insertions and duplications.
 fn mutated() -> impl Strategy<Value = String> {
     let edits = prop::collection::vec(
-        (0..VALID.len(), 0..VALID.len(), 0usize..30, prop::sample::select(WORDS)),
+        (
+            0..VALID.len(),
+            0..VALID.len(),
+            0usize..30,
+            prop::sample::select(WORDS),
+        ),
         1..6,
     );
     edits.prop_map(|edits| {

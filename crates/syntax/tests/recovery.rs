@@ -55,8 +55,16 @@ fn errors_inside_a_model_are_found_statement_by_statement() {
     check(
         text,
         &[
-            (3, 3, "expected `=` after the outcome `focus + remote_w`, found `vary`"),
-            (3, 18, "expected `,` or `by` and the grouping, found `remote_w`"),
+            (
+                3,
+                3,
+                "expected `=` after the outcome `focus + remote_w`, found `vary`",
+            ),
+            (
+                3,
+                18,
+                "expected `,` or `by` and the grouping, found `remote_w`",
+            ),
             (4, 9, "expected `+` or the end of the formula, found `-`"),
             (6, 1, "expected the estimation method"),
         ],
@@ -67,7 +75,8 @@ fn errors_inside_a_model_are_found_statement_by_statement() {
 
 #[test]
 fn unclosed_model_brace_is_reported_at_the_brace() {
-    let text = "model full {\n  y = x\n\nprobe full: x across w at 1, 2 3\nmodel other {\n  y = z\n";
+    let text =
+        "model full {\n  y = x\n\nprobe full: x across w at 1, 2 3\nmodel other {\n  y = z\n";
     check(
         text,
         &[
@@ -80,7 +89,8 @@ fn unclosed_model_brace_is_reported_at_the_brace() {
 
 #[test]
 fn lexical_errors_do_not_stop_parsing() {
-    let text = "source \"teams.csv\nlet y = a $ b\nlet s = \"x\\q\"\nlet t = `team size\nlet u = 1 ~ 2\n";
+    let text =
+        "source \"teams.csv\nlet y = a $ b\nlet s = \"x\\q\"\nlet t = `team size\nlet u = 1 ~ 2\n";
     check(
         text,
         &[
@@ -147,7 +157,11 @@ fn broken_call_arguments_are_skipped_as_a_group() {
     check(
         text,
         &[
-            (1, 15, "expected `,` or `)` to close the argument list, found `y`"),
+            (
+                1,
+                15,
+                "expected `,` or `)` to close the argument list, found `y`",
+            ),
             (2, 19, "expected an expression, found `,`"),
             (3, 14, "expected an expression, found `)`"),
         ],

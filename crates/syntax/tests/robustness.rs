@@ -26,7 +26,12 @@ fn nesting_beyond_the_limit_is_one_error() {
 #[test]
 fn very_deep_nesting_does_not_overflow() {
     // Debug builds are slow; one input at full size, the others smaller.
-    for (open, close, n) in [("(", ")", 100_000), ("{", "}", 5_000), ("f(", ")", 5_000), ("(", "", 5_000)] {
+    for (open, close, n) in [
+        ("(", ")", 100_000),
+        ("{", "}", 5_000),
+        ("f(", ")", 5_000),
+        ("(", "", 5_000),
+    ] {
         let p = parse(&nested(open, close, n));
         assert!(!p.errors.is_empty());
     }
@@ -36,7 +41,13 @@ fn very_deep_nesting_does_not_overflow() {
 
 #[test]
 fn long_operator_chains_are_cut_with_one_error() {
-    for (op, n) in [("+", 50_000), ("^", 2_000), ("*", 2_000), (" and ", 2_000), (" < ", 2_000)] {
+    for (op, n) in [
+        ("+", 50_000),
+        ("^", 2_000),
+        ("*", 2_000),
+        (" and ", 2_000),
+        (" < ", 2_000),
+    ] {
         let text = format!("let x = a{}\n", format!("{op}a").repeat(n));
         let p = parse(&text);
         assert_eq!(p.errors.len(), 1, "{op}: {:?}", p.errors);
