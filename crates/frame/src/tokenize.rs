@@ -139,17 +139,48 @@ pub(crate) fn tokenize_quoted<S: Sink>(
     Ok(End { pos, lines: line })
 }
 
+/// Bit 7 of each byte of the result is set where `w` holds a comma: eight
+/// bytes per step without the per-call cost of a vector search, which loses
+/// on fields of a few bytes.
+#[inline]
+fn comma_bits(w: u64) -> u64 {
+    const LO7: u64 = 0x7f7f_7f7f_7f7f_7f7f;
+    let x = w ^ 0x2c2c_2c2c_2c2c_2c2c;
+    // Exact zero-byte test (no false positives from borrows).
+    !(((x & LO7) + LO7) | x | LO7)
+}
+
 /// Fields of one record without quotes; returns how many there were.
 #[inline]
 fn split_plain<S: Sink>(rec: &[u8], limit: usize, sink: &mut S) -> usize {
     let mut col = 0;
     let mut start = 0;
-    for i in memchr_iter(b',', rec) {
-        if col < limit {
-            sink.field(col, trim(&rec[start..i]));
+    let mut words = rec.chunks_exact(8);
+    let mut base = 0;
+    for word in &mut words {
+        let mut bytes = [0u8; 8];
+        bytes.copy_from_slice(word);
+        let mut m = comma_bits(u64::from_le_bytes(bytes));
+        while m != 0 {
+            let i = base + (m.trailing_zeros() / 8) as usize;
+            if col < limit {
+                sink.field(col, trim(&rec[start..i]));
+            }
+            col += 1;
+            start = i + 1;
+            m &= m - 1;
         }
-        col += 1;
-        start = i + 1;
+        base += 8;
+    }
+    for (j, &b) in words.remainder().iter().enumerate() {
+        if b == b',' {
+            let i = base + j;
+            if col < limit {
+                sink.field(col, trim(&rec[start..i]));
+            }
+            col += 1;
+            start = i + 1;
+        }
     }
     if col < limit {
         sink.field(col, trim(&rec[start..]));
@@ -287,6 +318,21 @@ mod tests {
         assert_eq!(c.rows[0], (0, vec!["a,b".into(), "say \"hi\"".into()]));
         assert_eq!(c.rows[1], (1, vec!["two\nlines".into(), "x".into()]));
         assert_eq!(c.rows[2], (3, vec!["y".into(), "".into()]));
+    }
+
+    #[test]
+    fn comma_bits_finds_every_comma_and_nothing_else() {
+        for b in 0..=255u8 {
+            for pos in 0..8 {
+                let mut w = [b'a'; 8];
+                w[pos] = b;
+                let m = comma_bits(u64::from_le_bytes(w));
+                let want = if b == b',' { 0x80u64 << (8 * pos) } else { 0 };
+                assert_eq!(m, want, "byte {b} at {pos}");
+            }
+        }
+        let w = u64::from_le_bytes(*b",,a,\x2d\x2b,,");
+        assert_eq!(comma_bits(w).count_ones(), 5);
     }
 
     #[test]
