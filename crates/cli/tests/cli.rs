@@ -214,6 +214,14 @@ fn fmt_rewrites_idempotently_and_check_mode_reports() {
 }
 
 #[test]
+fn demo_files_are_in_canonical_form() {
+    for f in ["demo-data/teams.slope", "demo-data/suppliers.slope"] {
+        let out = slopewise(&["fmt", f, "--check"]);
+        assert_eq!(out.status.code(), Some(0), "{f}: {}", text(&out.stdout));
+    }
+}
+
+#[test]
 fn every_command_has_help() {
     for cmd in ["check", "describe", "fmt", "bench"] {
         let out = slopewise(&[cmd, "--help"]);

@@ -236,6 +236,8 @@ struct Layout<'a> {
     index: LineIndex,
     comments: &'a [Comment],
     out: String,
+    /// Byte offsets in `out` where the two spaces before a trailing `#` begin.
+    trailing_at: Vec<usize>,
 }
 
 /// One element of a statement sequence, with the comments that belong to it.
@@ -344,6 +346,7 @@ impl<'a> Layout<'a> {
         self.out.push_str(indent);
         self.out.push_str(text);
         if let Some(c) = trailing {
+            self.trailing_at.push(self.out.len());
             self.out.push_str("  ");
             self.out.push_str(&Self::comment_line(c));
         }
@@ -435,6 +438,7 @@ pub(crate) fn format_parsed(src: &str, parsed: &Parsed) -> String {
         index: LineIndex::new(src),
         comments: &parsed.comments,
         out: String::new(),
+        trailing_at: Vec::new(),
     };
     let items = layout.items(
         &parsed.file.stmts,
@@ -443,5 +447,45 @@ pub(crate) fn format_parsed(src: &str, parsed: &Parsed) -> String {
         (0, src.len() + 1),
     );
     layout.sequence(&items, "", src.len() + 1);
-    layout.out
+    align_trailing_comments(&layout.out, &layout.trailing_at)
+}
+
+/// Trailing comments on consecutive lines start in one column, two spaces
+/// after the longest code among them, as users tend to align them by hand.
+/// The column depends only on the code, so formatting stays idempotent.
+fn align_trailing_comments(out: &str, offsets: &[usize]) -> String {
+    if offsets.is_empty() {
+        return out.to_string();
+    }
+    let mut marks = Vec::with_capacity(offsets.len());
+    let (mut line, mut scanned) = (0, 0);
+    for &pos in offsets {
+        line += out[scanned..pos].matches('\n').count();
+        scanned = pos;
+        marks.push((line, pos));
+    }
+    let line_start = |pos: usize| out[..pos].rfind('\n').map_or(0, |i| i + 1);
+    let width = |&(_, pos): &(usize, usize)| out[line_start(pos)..pos].chars().count();
+    let mut pad = vec![0usize; marks.len()];
+    let mut i = 0;
+    while i < marks.len() {
+        let mut j = i + 1;
+        while j < marks.len() && marks[j].0 == marks[j - 1].0 + 1 {
+            j += 1;
+        }
+        let col = marks[i..j].iter().map(width).max().unwrap_or(0);
+        for k in i..j {
+            pad[k] = col - width(&marks[k]);
+        }
+        i = j;
+    }
+    let mut result = String::with_capacity(out.len() + pad.iter().sum::<usize>());
+    let mut last = 0;
+    for (m, p) in marks.iter().zip(&pad) {
+        result.push_str(&out[last..m.1]);
+        result.extend(std::iter::repeat_n(' ', *p));
+        last = m.1;
+    }
+    result.push_str(&out[last..]);
+    result
 }

@@ -51,12 +51,12 @@ fn spacing_is_canonical() {
 fn comments_are_kept_in_place() {
     check(
         "# header\n\n\n# second\nsource \"a.csv\"   # trailing\nmodel m { # on the brace\n  # before formula\n  y = x   # after formula\n\n  # alone at the end\n} # after brace\nlet q = a +   # inside\n  b\n# last\n",
-        expect![[r#"
+        expect![[r##"
             # header
 
             # second
             source "a.csv"  # trailing
-            model m {  # on the brace
+            model m {       # on the brace
               # before formula
               y = x  # after formula
 
@@ -65,7 +65,7 @@ fn comments_are_kept_in_place() {
             # inside
             let q = a + b
             # last
-        "#]],
+        "##]],
     );
 }
 
