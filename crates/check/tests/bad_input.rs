@@ -106,7 +106,7 @@ fn each_file_reports_the_problem_it_exists_for() {
 
 #[test]
 fn clean_files_have_no_errors() {
-    for name in ["bom_crlf"] {
+    for name in ["bom_crlf", "custom_missing"] {
         let got = render(&corpus().join(format!("{name}.slope")));
         assert!(!got.contains("error "), "{name}:\n{got}");
     }
