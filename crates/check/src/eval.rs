@@ -183,39 +183,9 @@ impl<'a> Evaluator<'a> {
                 }
             }),
             Value::Binary(op, a, b) => self.binary(*op, a, b),
-            Value::Within(x, g) => {
-                let x = self.numbers(x);
-                let g = self.group(*g);
-                let means = g.means(&x);
-                Evaluated::Numbers(
-                    x.iter()
-                        .zip(&g.codes)
-                        .map(|(&v, &c)| {
-                            if c == MISSING_CODE {
-                                f64::NAN
-                            } else {
-                                v - means[c as usize]
-                            }
-                        })
-                        .collect(),
-                )
-            }
+            Value::Within(x, g) => self.by_group(x, *g, |v, mean| v - mean),
             Value::Between(x, g) => {
-                let x = self.numbers(x);
-                let g = self.group(*g);
-                let means = g.means(&x);
-                Evaluated::Numbers(
-                    x.iter()
-                        .zip(&g.codes)
-                        .map(|(&v, &c)| {
-                            if c == MISSING_CODE || v.is_nan() {
-                                f64::NAN
-                            } else {
-                                means[c as usize]
-                            }
-                        })
-                        .collect(),
-                )
+                self.by_group(x, *g, |v, mean| if v.is_nan() { v } else { mean })
             }
             Value::Center(x) => {
                 let x = self.numbers(x);
@@ -249,6 +219,25 @@ impl<'a> Evaluator<'a> {
                 other => numbers_to_codes(&other.to_numbers(n)),
             },
         }
+    }
+
+    /// Combine each row's value with its group's mean; missing where the id is.
+    fn by_group(&self, x: &Value, group: usize, f: impl Fn(f64, f64) -> f64) -> Evaluated {
+        let x = self.numbers(x);
+        let g = self.group(group);
+        let means = g.means(&x);
+        Evaluated::Numbers(
+            x.iter()
+                .zip(&g.codes)
+                .map(|(&v, &c)| {
+                    if c == MISSING_CODE {
+                        f64::NAN
+                    } else {
+                        f(v, means[c as usize])
+                    }
+                })
+                .collect(),
+        )
     }
 
     /// Evaluate as one number per row.
@@ -384,5 +373,118 @@ pub fn format_number(x: f64) -> String {
         format!("{}", x as i64)
     } else {
         format!("{x}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use frame::Column;
+    use syntax::ast::BinaryOp;
+
+    fn close(a: &[f64], b: &[f64]) -> bool {
+        a.len() == b.len()
+            && a.iter()
+                .zip(b)
+                .all(|(x, y)| (x.is_nan() && y.is_nan()) || (x - y).abs() < 1e-12)
+    }
+
+    /// Rows out of time order, a gap (unit A has no period 3) and a missing id.
+    fn panel_frame() -> Frame {
+        let nan = f64::NAN;
+        Frame::from_columns(vec![
+            Column::categorical(
+                "unit",
+                &[Some("A"), Some("A"), Some("B"), Some("A"), Some("B"), None],
+            ),
+            Column::numeric("t", vec![2.0, 1.0, 1.0, 4.0, 2.0, 1.0]),
+            Column::numeric("x", vec![20.0, 10.0, 5.0, 40.0, 7.0, 1.0]),
+            Column::numeric("m", vec![1.0, nan, 3.0, 5.0, 4.0, 2.0]),
+        ])
+    }
+
+    #[test]
+    fn lag_lead_and_diff_follow_time_within_unit_and_stop_at_gaps() {
+        let f = panel_frame();
+        let ev0 = Evaluator::new(&f, None);
+        let panel = PanelIndex::new(
+            ev0.group(0),
+            f.columns()[1].as_numeric().unwrap().values.clone(),
+        );
+        let ev = Evaluator::new(&f, Some(&panel));
+        let x = || Box::new(Value::Column(2));
+        let nan = f64::NAN;
+        // A: t1=10, t2=20, t4=40 (no t3); B: t1=5, t2=7.
+        assert!(close(
+            &ev.numbers(&Value::Shift {
+                x: x(),
+                k: 1,
+                diff: false
+            }),
+            &[10.0, nan, nan, nan, 5.0, nan]
+        ));
+        assert!(close(
+            &ev.numbers(&Value::Shift {
+                x: x(),
+                k: -1,
+                diff: false
+            }),
+            &[nan, 20.0, 7.0, nan, nan, nan]
+        ));
+        assert!(close(
+            &ev.numbers(&Value::Shift {
+                x: x(),
+                k: 2,
+                diff: false
+            }),
+            &[nan, nan, nan, 20.0, nan, nan]
+        ));
+        assert!(close(
+            &ev.numbers(&Value::Shift {
+                x: x(),
+                k: 1,
+                diff: true
+            }),
+            &[10.0, nan, nan, nan, 2.0, nan]
+        ));
+        let (dups, n) = panel.duplicates(5);
+        assert_eq!((dups.len(), n), (0, 0));
+        assert_eq!(panel.gaps(), (1, Some(0)));
+    }
+
+    #[test]
+    fn within_and_between_use_the_group_means_of_available_values() {
+        let f = panel_frame();
+        let ev = Evaluator::new(&f, None);
+        let nan = f64::NAN;
+        // m in A: 1, missing, 5 -> mean 3; in B: 3, 4 -> mean 3.5; the last row has no unit.
+        let w = ev.numbers(&Value::Within(Box::new(Value::Column(3)), 0));
+        assert!(close(&w, &[-2.0, nan, -0.5, 2.0, 0.5, nan]), "{w:?}");
+        let b = ev.numbers(&Value::Between(Box::new(Value::Column(3)), 0));
+        assert!(close(&b, &[3.0, nan, 3.5, 3.0, 3.5, nan]), "{b:?}");
+    }
+
+    #[test]
+    fn arithmetic_marks_undefined_results_missing() {
+        let f = panel_frame();
+        let ev = Evaluator::new(&f, None);
+        let div = Value::Binary(
+            BinaryOp::Div,
+            Box::new(Value::Column(2)),
+            Box::new(Value::Number(0.0)),
+        );
+        assert!(ev.numbers(&div).iter().all(|v| v.is_nan()));
+        let z = ev.numbers(&Value::Z(Box::new(Value::Column(2))));
+        let (mean, sd) = mean_sd(&z);
+        assert!(mean.abs() < 1e-12 && (sd - 1.0).abs() < 1e-12);
+        let level = Value::Binary(
+            BinaryOp::Eq,
+            Box::new(Value::Column(0)),
+            Box::new(Value::Text("B".into())),
+        );
+        assert!(close(
+            &ev.numbers(&level),
+            &[0.0, 0.0, 1.0, 0.0, 1.0, f64::NAN]
+        ));
     }
 }
