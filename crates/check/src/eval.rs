@@ -6,7 +6,7 @@
 
 use std::cell::RefCell;
 use std::collections::HashMap;
-use std::rc::Rc;
+use std::sync::Arc;
 
 use frame::{ColumnData, Frame, GroupIndex, MISSING_CODE};
 use syntax::ast::BinaryOp;
@@ -49,7 +49,7 @@ impl Evaluated {
 /// Rows sorted by unit and time, for `lag`, `lead` and `diff`.
 #[derive(Debug)]
 pub struct PanelIndex {
-    pub unit: Rc<GroupIndex>,
+    pub unit: Arc<GroupIndex>,
     pub time: Vec<f64>,
     /// Row numbers sorted by (unit, time); rows with a missing unit or time last.
     order: Vec<u32>,
@@ -58,7 +58,7 @@ pub struct PanelIndex {
 }
 
 impl PanelIndex {
-    pub fn new(unit: Rc<GroupIndex>, time: Vec<f64>) -> PanelIndex {
+    pub fn new(unit: Arc<GroupIndex>, time: Vec<f64>) -> PanelIndex {
         let n_units = unit.n_groups();
         let mut order: Vec<u32> = (0..time.len() as u32)
             .filter(|&r| unit.codes[r as usize] != MISSING_CODE && !time[r as usize].is_nan())
@@ -137,7 +137,10 @@ impl PanelIndex {
 pub struct Evaluator<'a> {
     pub frame: &'a Frame,
     panel: Option<&'a PanelIndex>,
-    groups: RefCell<HashMap<usize, Rc<GroupIndex>>>,
+    groups: RefCell<HashMap<usize, Arc<GroupIndex>>>,
+    /// When set, group means (`within`, `between`) and sample statistics
+    /// (`center`, `z`) are taken over these rows only: the estimation sample.
+    sample: Option<&'a [bool]>,
 }
 
 impl<'a> Evaluator<'a> {
@@ -146,6 +149,33 @@ impl<'a> Evaluator<'a> {
             frame,
             panel,
             groups: RefCell::new(HashMap::new()),
+            sample: None,
+        }
+    }
+
+    /// Statistics over the estimation sample only (the engine's view), while
+    /// values are still produced for every row and `lag` still reads rows
+    /// outside the sample (an earlier period excluded by `where` is still data).
+    pub fn with_sample(
+        frame: &'a Frame,
+        panel: Option<&'a PanelIndex>,
+        sample: &'a [bool],
+    ) -> Self {
+        Evaluator {
+            sample: Some(sample),
+            ..Evaluator::new(frame, panel)
+        }
+    }
+
+    /// The values that enter a statistic: outside the sample they count as missing.
+    fn for_stats(&self, x: &[f64]) -> Vec<f64> {
+        match self.sample {
+            None => x.to_vec(),
+            Some(s) => x
+                .iter()
+                .zip(s)
+                .map(|(&v, &k)| if k { v } else { f64::NAN })
+                .collect(),
         }
     }
 
@@ -154,11 +184,11 @@ impl<'a> Evaluator<'a> {
     }
 
     /// The group index of a column, built once.
-    pub fn group(&self, column: usize) -> Rc<GroupIndex> {
+    pub fn group(&self, column: usize) -> Arc<GroupIndex> {
         self.groups
             .borrow_mut()
             .entry(column)
-            .or_insert_with(|| Rc::new(GroupIndex::from_column(&self.frame.columns()[column])))
+            .or_insert_with(|| Arc::new(GroupIndex::from_column(&self.frame.columns()[column])))
             .clone()
     }
 
@@ -189,12 +219,12 @@ impl<'a> Evaluator<'a> {
             }
             Value::Center(x) => {
                 let x = self.numbers(x);
-                let (mean, _) = mean_sd(&x);
+                let (mean, _) = mean_sd(&self.for_stats(&x));
                 Evaluated::Numbers(x.iter().map(|v| v - mean).collect())
             }
             Value::Z(x) => {
                 let x = self.numbers(x);
-                let (mean, sd) = mean_sd(&x);
+                let (mean, sd) = mean_sd(&self.for_stats(&x));
                 Evaluated::Numbers(x.iter().map(|v| finite((v - mean) / sd)).collect())
             }
             Value::Log(x) => map(self.numbers(x), |v| if v > 0.0 { v.ln() } else { f64::NAN }),
@@ -225,7 +255,7 @@ impl<'a> Evaluator<'a> {
     fn by_group(&self, x: &Value, group: usize, f: impl Fn(f64, f64) -> f64) -> Evaluated {
         let x = self.numbers(x);
         let g = self.group(group);
-        let means = g.means(&x);
+        let means = g.means(&self.for_stats(&x));
         Evaluated::Numbers(
             x.iter()
                 .zip(&g.codes)
@@ -462,6 +492,20 @@ mod tests {
         assert!(close(&w, &[-2.0, nan, -0.5, 2.0, 0.5, nan]), "{w:?}");
         let b = ev.numbers(&Value::Between(Box::new(Value::Column(3)), 0));
         assert!(close(&b, &[3.0, nan, 3.5, 3.0, 3.5, nan]), "{b:?}");
+    }
+
+    #[test]
+    fn the_estimation_sample_decides_group_means_and_centering() {
+        let f = panel_frame();
+        let sample = [true, true, true, false, true, true];
+        let ev = Evaluator::with_sample(&f, None, &sample);
+        let nan = f64::NAN;
+        // Without row 4, unit A's mean of m is 1 (row 2 is missing), B's stays 3.5.
+        let w = ev.numbers(&Value::Within(Box::new(Value::Column(3)), 0));
+        assert!(close(&w, &[0.0, nan, -0.5, 4.0, 0.5, nan]), "{w:?}");
+        let c = ev.numbers(&Value::Center(Box::new(Value::Column(2))));
+        let mean_in_sample = (20.0 + 10.0 + 5.0 + 7.0 + 1.0) / 5.0;
+        assert!((c[0] - (20.0 - mean_in_sample)).abs() < 1e-12);
     }
 
     #[test]

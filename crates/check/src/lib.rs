@@ -56,6 +56,8 @@ pub struct Checked {
     pub groups: Vec<usize>,
     /// Unit and time columns of `panel`.
     pub panel: Option<(usize, usize)>,
+    /// Rows ordered by unit and time, for evaluating `lag`, `lead` and `diff`.
+    pub panel_index: Option<PanelIndex>,
     pub models: Vec<ResolvedModel>,
     pub requests: Vec<Request>,
     pub comparisons: Vec<Comparison>,
@@ -196,6 +198,7 @@ pub fn check(text: &str, parsed: &Parsed, base_dir: &Path, data: &dyn DataProvid
         lets: std::mem::take(&mut ctx.lets),
         groups,
         panel: ctx.panel,
+        panel_index: ctx.panel_index.take(),
         models,
         requests,
         comparisons,

@@ -2,7 +2,6 @@
 //! and top-level `where`.
 
 use std::path::{Path, PathBuf};
-use std::rc::Rc;
 
 use frame::{ColumnData, ReadError, ReadOptions};
 use syntax::ast::{Expr, Ident, Stmt, StmtKind, StrLit};
@@ -166,7 +165,7 @@ impl Ctx<'_> {
             self.push(Diagnostic::warning(codes::PANEL_TIME, time.span, msg));
         }
         let ev = crate::eval::Evaluator::new(&frame, None);
-        let index = PanelIndex::new(Rc::clone(&ev.group(u)), times);
+        let index = PanelIndex::new(std::sync::Arc::clone(&ev.group(u)), times);
         let (dups, n_dups) = index.duplicates(1);
         let span = unit.span.cover(time.span);
         if let Some(&(a, b)) = dups.first() {
