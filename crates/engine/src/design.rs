@@ -1,0 +1,245 @@
+//! Design matrices from a checked model, on the estimation sample.
+//!
+//! The checker decided the sample (`where` and listwise deletion); here every
+//! term is evaluated with group means and centering taken over that sample,
+//! categorical factors become indicator columns (reference: the `ref` level, or
+//! the first level in sorted order among those present), products and powers are
+//! multiplied out, and for `fixed` models singleton groups are removed
+//! repeatedly before anything is estimated.
+
+use check::{Evaluated, Evaluator, PanelIndex, ResolvedModel, ResolvedTerm, Value};
+use frame::{Frame, MISSING_CODE};
+
+use crate::numeric::{singleton_rows, GroupCodes};
+use crate::FitError;
+
+/// The regression problem of one model.
+#[derive(Clone, Debug)]
+pub struct Design {
+    /// Rows of the frame in the estimation sample, ascending.
+    pub rows: Vec<usize>,
+    pub y: Vec<f64>,
+    /// One column per coefficient, over `rows`.
+    pub columns: Vec<Vec<f64>>,
+    pub labels: Vec<String>,
+    /// For each column, the index of the model term it comes from (`None` for the intercept).
+    pub term_of: Vec<Option<usize>>,
+    pub intercept: bool,
+    /// The `fixed` groupings, coded over `rows`.
+    pub fixed: Vec<(String, GroupCodes)>,
+    /// The `errors cluster` groupings, coded over `rows`.
+    pub clusters: Vec<(String, GroupCodes)>,
+    /// Rows removed because they were alone in a fixed-effect group.
+    pub singletons: usize,
+}
+
+pub fn build(
+    model: &ResolvedModel,
+    frame: &Frame,
+    panel: Option<&PanelIndex>,
+) -> Result<Design, FitError> {
+    let err = |message: String| FitError {
+        model: model.name.clone(),
+        message,
+    };
+    let rows_account = model
+        .rows
+        .as_ref()
+        .ok_or_else(|| err("the data were not loaded, so there is no estimation sample".into()))?;
+    let mut sample = rows_account.sample.clone();
+    let outcome = model
+        .outcome
+        .as_ref()
+        .ok_or_else(|| err("the model has no outcome".into()))?;
+
+    // Singletons first: they change the sample, and with it every group mean.
+    let mut singletons = 0;
+    if !model.fixed.is_empty() {
+        let rows: Vec<usize> = (0..sample.len()).filter(|&r| sample[r]).collect();
+        let codes: Vec<GroupCodes> = model
+            .fixed
+            .iter()
+            .map(|g| codes_over(frame, g.column, &rows))
+            .collect();
+        let (keep, dropped) = singleton_rows(&codes);
+        singletons = dropped;
+        for (r, k) in rows.iter().zip(&keep) {
+            if !k {
+                sample[*r] = false;
+            }
+        }
+    }
+    let rows: Vec<usize> = (0..sample.len()).filter(|&r| sample[r]).collect();
+    if rows.is_empty() {
+        return Err(err("no rows are left to estimate from".into()));
+    }
+    let ev = Evaluator::with_sample(frame, panel, &sample);
+    let gather = |v: &[f64]| -> Vec<f64> { rows.iter().map(|&r| v[r]).collect() };
+
+    let y = gather(&ev.numbers(&outcome.value));
+    let intercept = model.fixed.is_empty();
+    let mut columns = Vec::new();
+    let mut labels = Vec::new();
+    let mut term_of = Vec::new();
+    if intercept {
+        columns.push(vec![1.0; rows.len()]);
+        labels.push("(intercept)".to_string());
+        term_of.push(None);
+    }
+    for (ti, term) in model.terms.iter().enumerate() {
+        for (label, col) in expand_term(&ev, term, &rows) {
+            columns.push(col);
+            labels.push(label);
+            term_of.push(Some(ti));
+        }
+    }
+    if let Some(bad) = columns
+        .iter()
+        .chain(std::iter::once(&y))
+        .position(|c| c.iter().any(|v| !v.is_finite()))
+    {
+        let what = labels
+            .get(bad)
+            .cloned()
+            .unwrap_or_else(|| outcome.label.clone());
+        return Err(err(format!(
+            "`{what}` has values that are not finite numbers in the estimation sample"
+        )));
+    }
+    let fixed = model
+        .fixed
+        .iter()
+        .map(|g| (g.name.clone(), codes_over(frame, g.column, &rows)))
+        .collect();
+    let clusters = model
+        .cluster
+        .iter()
+        .map(|g| (g.name.clone(), codes_over(frame, g.column, &rows)))
+        .collect();
+    Ok(Design {
+        rows,
+        y,
+        columns,
+        labels,
+        term_of,
+        intercept,
+        fixed,
+        clusters,
+        singletons,
+    })
+}
+
+/// Dense codes of a grouping column over the given rows (none of them missing:
+/// the checker left rows with a missing grouping out of the sample).
+fn codes_over(frame: &Frame, column: usize, rows: &[usize]) -> GroupCodes {
+    let index = frame::GroupIndex::from_column(&frame.columns()[column]);
+    let ids: Vec<u32> = rows
+        .iter()
+        .map(|&r| {
+            let c = index.codes[r];
+            debug_assert!(c != MISSING_CODE);
+            c
+        })
+        .collect();
+    GroupCodes::from_ids(&ids)
+}
+
+/// One part of a term while it is multiplied out: its label pieces and values.
+struct Piece {
+    labels: Vec<String>,
+    values: Vec<f64>,
+}
+
+/// The columns of one term: one for a product of numbers, one per
+/// non-reference level (or combination of levels) for categorical factors.
+fn expand_term(ev: &Evaluator<'_>, term: &ResolvedTerm, rows: &[usize]) -> Vec<(String, Vec<f64>)> {
+    let mut pieces = vec![Piece {
+        labels: Vec::new(),
+        values: vec![1.0; rows.len()],
+    }];
+    for f in &term.factors {
+        match ev.eval(&f.value) {
+            Evaluated::Codes { codes, levels } => {
+                let reference = match &f.value {
+                    Value::Categorical {
+                        reference: Some(r), ..
+                    } => Some(r.as_str()),
+                    _ => None,
+                };
+                let present = levels_present(&codes, &levels, rows);
+                let keep: Vec<&(u32, String)> = match reference {
+                    Some(r) => present.iter().filter(|(_, l)| l != r).collect(),
+                    None => present.iter().skip(1).collect(),
+                };
+                let mut next = Vec::new();
+                for p in &pieces {
+                    for (code, level) in &keep {
+                        let mut labels = p.labels.clone();
+                        labels.push(format!("{}={level}", f.label));
+                        let values = p
+                            .values
+                            .iter()
+                            .zip(rows)
+                            .map(|(v, &r)| if codes[r] == *code { *v } else { 0.0 })
+                            .collect();
+                        next.push(Piece { labels, values });
+                    }
+                }
+                pieces = next;
+            }
+            other => {
+                let x = other.to_numbers(ev.n());
+                let label = if f.power > 1 {
+                    format!("{}^{}", f.label, f.power)
+                } else {
+                    f.label.clone()
+                };
+                for p in pieces.iter_mut() {
+                    for (v, &r) in p.values.iter_mut().zip(rows) {
+                        *v *= x[r].powi(f.power as i32);
+                    }
+                    p.labels.push(label.clone());
+                }
+            }
+        }
+    }
+    if !term.categorical {
+        // A term of numbers keeps its label exactly as written (DESIGN: term labels).
+        return pieces
+            .into_iter()
+            .map(|p| (term.label.clone(), p.values))
+            .collect();
+    }
+    pieces
+        .into_iter()
+        .map(|p| (p.labels.join("*"), p.values))
+        .collect()
+}
+
+/// The levels that occur in the sample, in sorted order: numerically when every
+/// level is a number (codes treated as categories), otherwise as text.
+fn levels_present(codes: &[u32], levels: &[String], rows: &[usize]) -> Vec<(u32, String)> {
+    let mut seen = vec![false; levels.len()];
+    for &r in rows {
+        let c = codes[r];
+        if c != MISSING_CODE {
+            seen[c as usize] = true;
+        }
+    }
+    let mut out: Vec<(u32, String)> = levels
+        .iter()
+        .enumerate()
+        .filter(|(i, _)| seen[*i])
+        .map(|(i, l)| (i as u32, l.clone()))
+        .collect();
+    let numeric: Option<Vec<f64>> = out.iter().map(|(_, l)| l.parse::<f64>().ok()).collect();
+    match numeric {
+        Some(nums) => {
+            let mut paired: Vec<(f64, (u32, String))> = nums.into_iter().zip(out).collect();
+            paired.sort_by(|a, b| a.0.total_cmp(&b.0));
+            out = paired.into_iter().map(|(_, p)| p).collect();
+        }
+        None => out.sort_by(|a, b| a.1.cmp(&b.1)),
+    }
+    out
+}
