@@ -368,6 +368,25 @@ impl Ctx<'_> {
 
     fn resolve_outcome(&mut self, out: &Expr) -> Option<ResolvedFactor> {
         let r = self.resolve_expr(out);
+        if r.ty == Ty::Categorical {
+            // A stray text value deserves its own message; a text column as outcome another.
+            let d = self.text_as_number(r.value.as_ref(), out.span);
+            let plain_text = !d.message.contains("holds text at line");
+            let d = if plain_text {
+                Diagnostic::error(
+                    codes::TEXT_AS_NUMBER,
+                    out.span,
+                    format!(
+                        "the outcome `{}` holds text, but the models here need a numeric outcome",
+                        self.slice(out.span)
+                    ),
+                )
+            } else {
+                d
+            };
+            self.push(d);
+            return None;
+        }
         let value = self.require_number(&r, out.span)?;
         Some(ResolvedFactor {
             label: self.label(out.span),
