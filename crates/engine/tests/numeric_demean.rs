@@ -338,3 +338,86 @@ fn nesting_and_codes() {
         vec![1, 0, 1]
     );
 }
+
+#[test]
+fn disconnected_blocks_and_repeated_groupings() {
+    seq();
+    // Two blocks of units with their own periods: the system is singular by
+    // two levels, still consistent; the result must equal the dummy residual.
+    let (u1, t1) = panel(15, 5, 0.7, 20);
+    let (u2, t2) = panel(12, 4, 0.7, 21);
+    let u: Vec<u32> = u1
+        .iter()
+        .copied()
+        .chain(u2.iter().map(|x| x + 100))
+        .collect();
+    let t: Vec<u32> = t1
+        .iter()
+        .copied()
+        .chain(t2.iter().map(|x| x + 100))
+        .collect();
+    let gu = GroupCodes::from_ids(&u);
+    let gt = GroupCodes::from_ids(&t);
+    assert_eq!(redundant_levels(&[gu.clone(), gt.clone()]), 2);
+    let orig = columns(u.len(), 1, &u, &t, 22);
+    let mut cols = orig.clone();
+    let d = demean(&mut cols, &[gu.clone(), gt.clone()], 1e-14, 10_000);
+    assert!(d.converged, "{d:?}");
+    let want = lsdv_residual(&orig[0], &[&gu, &gt]);
+    for (a, b) in cols[0].iter().zip(&want) {
+        assert!((a - b).abs() < 1e-8, "{a} vs {b}");
+    }
+    // The same grouping twice is one grouping.
+    let mut twice = orig.clone();
+    let d = demean(&mut twice, &[gu.clone(), gu.clone()], 1e-12, 100);
+    assert!(d.converged);
+    let mut once = orig.clone();
+    demean(&mut once, std::slice::from_ref(&gu), 1e-12, 100);
+    for (a, b) in twice[0].iter().zip(&once[0]) {
+        assert!((a - b).abs() < 1e-12);
+    }
+}
+
+#[test]
+fn a_column_made_of_group_effects_demeans_to_zero() {
+    let (u, t) = panel(100, 8, 0.6, 30);
+    let x: Vec<f64> = u
+        .iter()
+        .zip(&t)
+        .map(|(&a, &b)| 10.0 + (a as f64).sqrt() - 3.0 * b as f64)
+        .collect();
+    let gs = vec![GroupCodes::from_ids(&u), GroupCodes::from_ids(&t)];
+    let mut cols = vec![x];
+    let d = demean(&mut cols, &gs, 1e-13, 1000);
+    assert!(d.converged);
+    assert!(
+        cols[0].iter().all(|v| v.abs() < 1e-10),
+        "{:?}",
+        &cols[0][..5]
+    );
+}
+
+#[test]
+fn a_balanced_two_way_panel_takes_one_iteration() {
+    // Balanced: the exact result is x − unit mean − period mean + grand mean,
+    // and one preconditioned conjugate-gradient step reaches it.
+    let u: Vec<u32> = (0..60).map(|i| i / 6).collect();
+    let t: Vec<u32> = (0..60).map(|i| i % 6).collect();
+    let gs = vec![GroupCodes::from_ids(&u), GroupCodes::from_ids(&t)];
+    let x = columns(60, 1, &u, &t, 40).remove(0);
+    let mut cols = vec![x.clone()];
+    let d = demean(&mut cols, &gs, 1e-13, 1);
+    assert!(d.converged && d.iterations == 1, "{d:?}");
+    let mean = |f: &dyn Fn(usize) -> bool| {
+        let v: Vec<f64> = (0..60).filter(|&i| f(i)).map(|i| x[i]).collect();
+        v.iter().sum::<f64>() / v.len() as f64
+    };
+    let grand = mean(&|_| true);
+    for i in 0..60 {
+        let want = x[i] - mean(&|j| u[j] == u[i]) - mean(&|j| t[j] == t[i]) + grand;
+        assert!((cols[0][i] - want).abs() < 1e-12);
+    }
+    // With no iteration only the unit means are removed: not converged.
+    let mut cols = vec![x];
+    assert!(!demean(&mut cols, &gs, 1e-13, 0).converged);
+}

@@ -1,41 +1,43 @@
-//! The within transform for one or more groupings: alternating projections
-//! (Guimarães & Portugal 2010; Gaure 2013, Computational Statistics & Data
-//! Analysis 66) run in the space of group effects, with Irons–Tuck
-//! extrapolation.
+//! The within transform for one or more groupings: the residual of projecting
+//! on all groupings' indicators, by alternating projections in the space of
+//! group effects (Guimarães & Portugal 2010; Gaure 2013, Computational
+//! Statistics & Data Analysis 66), accelerated by conjugate gradients on the
+//! normal equations.
 //!
 //! ## Algorithm
 //! Demeaning x by groupings 0..K is the least-squares residual
-//! `x − Σ_k D_k α_k`, where `D_k` are the indicator matrices. Alternating
-//! projections (subtract grouping 0's means, then grouping 1's, …) are block
-//! Gauss–Seidel on the normal equations for the α's, so the sweep is done on
-//! the α's directly and x itself is read only twice (group sums at the start,
-//! the residual at the end):
+//! `e = x − D_0α_0 − Dθ`, where `D_k` are indicator matrices and
+//! `D = [D_1 … D_{K−1}]`, `θ = (α_1, …, α_{K−1})`.
 //!
-//! - The grouping with the most levels is the *primary* one; the rows are
-//!   sorted by it once (counting sort), and the codes of the other groupings
-//!   are stored in that order, so a sweep streams through `u32` codes with the
-//!   primary's effects read in runs and the others' (usually few) in cache.
-//! - One sweep `F`: `α_0 = D_0⁻¹(D_0'x − D_0'Σ_{j≥1}D_jα_j)`, then for each
-//!   further grouping k in turn `α_k = D_k⁻¹(D_k'x − D_k'Σ_{j≠k}D_jα_j)` with
-//!   the newest values. The state of the iteration is θ = (α_1, …, α_{K−1}).
-//! - Acceleration: after two plain sweeps `θ₁ = F(θ₀)`, `θ₂ = F(θ₁)` the next
-//!   start is the Irons–Tuck (1969) extrapolation
-//!   `θ₂ − (Δθ₂·Δ²θ / Δ²θ·Δ²θ)·Δθ₂`, with `Δθ₂ = θ₂ − θ₁` and
-//!   `Δ²θ = θ₂ − 2θ₁ + θ₀`.
-//! - Convergence: after every plain sweep, the change is
-//!   `max_g |Δα_0,g| + Σ_{k≥1} max_g |Δα_k,g|`, a bound on the largest change
-//!   of any demeaned value in that sweep, divided by the column's scale
-//!   (max |x| of the original column). Converged when it is at most `tol`.
-//!   As with every stopping rule based on the change per sweep, the distance
-//!   to the exact residual can exceed `tol` when convergence is slow (about
-//!   change / (1 − rate)); the acceleration keeps the rate small.
+//! - The grouping with the most levels is the *primary* one. Its projection is
+//!   done exactly: the rows are sorted by it once (counting sort) and the codes
+//!   of the other groupings are stored in that order, so every pass streams
+//!   through `u32` codes run by run, with the (usually few) other effects in
+//!   cache. Eliminating α_0 leaves the normal equations
+//!   `D'M_0D θ = D'M_0x`, `M_0 = I − P_0` the primary group demeaning; the
+//!   right side is the group sums of the primary-demeaned x.
+//! - One sweep applies `D'M_0D` to a vector: per primary group, the values
+//!   `Dθ` on its rows minus their mean, summed into the other groupings'
+//!   groups (one pass over the sorted codes for all columns of a block at
+//!   once, split over threads by primary groups, partial sums added in a fixed
+//!   order so results do not depend on the thread count).
+//! - Acceleration: conjugate gradients (Hestenes & Stiefel 1952) on that
+//!   system, preconditioned by its diagonal (`count_h − Σ_g n_gh²/n_g`); the
+//!   system is singular exactly by the redundant levels but consistent, which
+//!   conjugate gradients handle. Levels wholly inside one primary group have a
+//!   zero row and stay at zero.
+//! - Convergence: the CG residual `D'M_0(x − Dθ)` holds the group sums of the
+//!   current result, so `|r_h| / count_h` is the change that projecting once
+//!   more on grouping `k ∋ h` would make to that group's values. Converged when
+//!   the largest of these, relative to the column's scale (max |x| of the
+//!   original column), is at most `tol`. The primary's group sums are zero by
+//!   construction. After the last iteration the result is formed and its group
+//!   means are measured again from the result itself; `last_change` and
+//!   `converged` report that measured value, not the recursion's.
 //! - One grouping: one exact sweep (subtract the group means), no iteration.
 //!
-//! Columns are independent and run in parallel (rayon); all work arrays are
-//! allocated once per column, never per row or per sweep. At the end the
-//! primary's effects are recomputed from the final θ, so the residual's sums
-//! within the primary groups are zero to rounding; the others' are within the
-//! tolerance.
+//! All work arrays are allocated per call, per block of columns or per
+//! thread chunk, never per row or per iteration.
 
 use rayon::prelude::*;
 
@@ -44,10 +46,14 @@ use super::{GroupCodes, NumericError};
 /// How the within transform ended.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Demeaned {
-    /// Plain sweeps done (the most of any column); 1 for one grouping.
+    /// Iterations done (the most of any column): conjugate-gradient steps, each
+    /// one pass over the codes; 1 for one grouping, 0 when nothing was needed.
     pub iterations: usize,
     pub converged: bool,
     /// The largest change of any value in the last sweep, relative to the column's scale.
+    /// Measured on the result: the largest group mean of the demeaned column in
+    /// any grouping, i.e. the change one more projection on that grouping would
+    /// make, over the column's max |x| (the largest over columns).
     pub last_change: f64,
 }
 
@@ -60,9 +66,9 @@ pub struct Demeaned {
 /// columns and groupings do not fit together (see [`try_demean`]) the columns
 /// are left unchanged and the result says `converged: false`, `last_change:
 /// NaN`. A column with NaN or infinite values is left unchanged and reported
-/// not converged; an all-zero column is converged at once. `max_iter` counts
-/// plain sweeps; with `max_iter = 0` and two or more groupings only the
-/// primary grouping's means are removed.
+/// not converged; an all-zero column is converged at once. `max_iter` bounds
+/// the iterations; with `max_iter = 0` and two or more groupings only the
+/// primary grouping's means are removed (and convergence is measured).
 pub fn demean(
     columns: &mut [Vec<f64>],
     groupings: &[GroupCodes],
@@ -110,28 +116,43 @@ pub fn try_demean(
         });
     }
     let plan = Plan::new(groupings);
-    let results: Vec<ColumnResult> = columns
-        .par_iter_mut()
-        .map(|col| plan.column(col, groupings, tol, max_iter))
-        .collect();
-    Ok(Demeaned {
-        iterations: results.iter().map(|r| r.sweeps).max().unwrap_or(0),
-        converged: results.iter().all(|r| r.converged),
-        last_change: results.iter().fold(0.0f64, |m, r| {
-            if m.is_nan() || r.change.is_nan() {
+    // Columns that can be demeaned: finite, not all zero.
+    let mut bad = false;
+    let mut todo: Vec<&mut Vec<f64>> = Vec::new();
+    for col in columns.iter_mut() {
+        if col.iter().any(|v| !v.is_finite()) {
+            bad = true;
+        } else if col.iter().any(|&v| v != 0.0) {
+            todo.push(col);
+        }
+    }
+    let mut iterations = 0;
+    let mut worst = 0.0f64;
+    if plan.others.is_empty() {
+        todo.par_iter_mut()
+            .for_each(|col| plan.one_grouping(col, groupings));
+        iterations = usize::from(!todo.is_empty());
+    } else {
+        for block in todo.chunks_mut(MAX_BLOCK) {
+            let (it, change) = plan.block(block, groupings, tol, max_iter);
+            iterations = iterations.max(it);
+            worst = if worst.is_nan() || change.is_nan() {
                 f64::NAN
             } else {
-                m.max(r.change)
-            }
-        }),
+                worst.max(change)
+            };
+        }
+    }
+    let last_change = if bad { f64::NAN } else { worst };
+    Ok(Demeaned {
+        iterations,
+        converged: !bad && worst <= tol,
+        last_change,
     })
 }
 
-struct ColumnResult {
-    sweeps: usize,
-    converged: bool,
-    change: f64,
-}
+/// Columns processed together in one pass over the codes.
+const MAX_BLOCK: usize = 8;
 
 /// What every column shares: the sort by the primary grouping.
 struct Plan {
@@ -143,12 +164,17 @@ struct Plan {
     inv: Vec<Vec<f64>>,
     /// Start of each primary group's run in the sorted order (G_0 + 1 entries).
     starts: Vec<usize>,
-    /// Codes of each other grouping in the sorted order.
+    /// Codes of the other groupings in the sorted order, each already offset
+    /// into the flat state θ (so one index per row and grouping).
     sorted: Vec<Vec<u32>>,
-    /// Offset of each other grouping's effects in the flat state θ.
+    /// Offset of each other grouping's effects in θ, and θ's length last.
     offsets: Vec<usize>,
-    /// Length of θ.
-    state_len: usize,
+    /// Preconditioner: 1 / diagonal of `D'M_0D`, 0 where the diagonal vanishes.
+    precond: Vec<f64>,
+    /// 1 / count of each θ level (0 for empty groups).
+    inv_state: Vec<f64>,
+    /// Primary-group ranges of the thread chunks.
+    chunks: Vec<(usize, usize)>,
 }
 
 impl Plan {
@@ -158,22 +184,32 @@ impl Plan {
             .max_by_key(|&k| (groupings[k].n_groups(), std::cmp::Reverse(k)))
             .unwrap_or(0);
         let others: Vec<usize> = (0..groupings.len()).filter(|&k| k != primary).collect();
-        let inv = groupings
+        let counts: Vec<Vec<u32>> = groupings
             .iter()
             .map(|g| {
                 let mut c = vec![0u32; g.n_groups()];
                 for &code in &g.codes {
                     c[code as usize] += 1;
                 }
+                c
+            })
+            .collect();
+        let inv: Vec<Vec<f64>> = counts
+            .iter()
+            .map(|c| {
                 c.iter()
                     .map(|&m| if m > 0 { 1.0 / m as f64 } else { 0.0 })
                     .collect()
             })
-            .collect::<Vec<Vec<f64>>>();
-        let p = &groupings[primary];
-        let g0 = p.n_groups();
+            .collect();
+        let mut offsets = vec![0usize];
+        for &k in &others {
+            offsets.push(offsets.last().copied().unwrap_or(0) + groupings[k].n_groups());
+        }
+        let state_len = *offsets.last().unwrap_or(&0);
+        let g0 = groupings[primary].n_groups();
         let mut starts = vec![0usize; g0 + 1];
-        for &c in &p.codes {
+        for &c in &groupings[primary].codes {
             starts[c as usize + 1] += 1;
         }
         for g in 0..g0 {
@@ -182,19 +218,63 @@ impl Plan {
         let mut sorted: Vec<Vec<u32>> = others.iter().map(|_| vec![0u32; n]).collect();
         if !others.is_empty() {
             let mut next = starts[..g0].to_vec();
-            for (i, &c) in p.codes.iter().enumerate() {
+            for (i, &c) in groupings[primary].codes.iter().enumerate() {
                 let pos = next[c as usize];
                 next[c as usize] += 1;
-                for (s, &k) in sorted.iter_mut().zip(&others) {
-                    s[pos] = groupings[k].codes[i];
+                for ((s, &k), &off) in sorted.iter_mut().zip(&others).zip(&offsets) {
+                    s[pos] = off as u32 + groupings[k].codes[i];
                 }
             }
         }
-        let mut offsets = Vec::with_capacity(others.len());
-        let mut state_len = 0;
-        for &k in &others {
-            offsets.push(state_len);
-            state_len += groupings[k].n_groups();
+        let mut inv_state = vec![0.0; state_len];
+        for ((&k, &off), _) in others.iter().zip(&offsets).zip(0..) {
+            inv_state[off..off + inv[k].len()].copy_from_slice(&inv[k]);
+        }
+        // Diagonal of D'M_0D: count_h − Σ_g n_gh² / n_g.
+        let mut diag = vec![0.0; state_len];
+        for ((&k, &off), _) in others.iter().zip(&offsets).zip(0..) {
+            for (h, &c) in counts[k].iter().enumerate() {
+                diag[off + h] = c as f64;
+            }
+        }
+        let mut tally = vec![0u32; state_len];
+        for g in 0..g0 {
+            let (s, e) = (starts[g], starts[g + 1]);
+            for codes in &sorted {
+                for &h in &codes[s..e] {
+                    tally[h as usize] += 1;
+                }
+                for &h in &codes[s..e] {
+                    let t = tally[h as usize];
+                    if t > 0 {
+                        diag[h as usize] -= (t as f64) * (t as f64) * inv[primary][g];
+                        tally[h as usize] = 0;
+                    }
+                }
+            }
+        }
+        // A level whose diagonal is (to rounding) zero lies inside one primary
+        // group: fully absorbed, kept at zero.
+        let precond = diag
+            .iter()
+            .zip(&inv_state)
+            .map(|(&d, &ic)| if d * ic > 1e-9 { 1.0 / d } else { 0.0 })
+            .collect();
+        // About 16 chunks of similar row counts (fixed, not per thread, so the
+        // summation order is the same on every machine).
+        let n_chunks = (n / (1 << 16)).clamp(1, 16);
+        let mut chunks = Vec::with_capacity(n_chunks);
+        let mut lo = 0;
+        for c in 1..=n_chunks {
+            let target = n * c / n_chunks;
+            let mut hi = lo;
+            while hi < g0 && (starts[hi] < target || c == n_chunks) {
+                hi += 1;
+            }
+            if hi > lo {
+                chunks.push((lo, hi));
+            }
+            lo = hi;
         }
         Plan {
             primary,
@@ -203,269 +283,330 @@ impl Plan {
             starts,
             sorted,
             offsets,
-            state_len,
+            precond,
+            inv_state,
+            chunks,
         }
     }
 
-    fn column(
+    fn state_len(&self) -> usize {
+        *self.offsets.last().unwrap_or(&0)
+    }
+
+    fn one_grouping(&self, x: &mut [f64], groupings: &[GroupCodes]) {
+        let g = &groupings[self.primary];
+        let mut means = vec![0.0; g.n_groups()];
+        for (&c, &v) in g.codes.iter().zip(x.iter()) {
+            means[c as usize] += v;
+        }
+        for (m, i) in means.iter_mut().zip(&self.inv[self.primary]) {
+            *m *= i;
+        }
+        for (v, &c) in x.iter_mut().zip(&g.codes) {
+            *v -= means[c as usize];
+        }
+    }
+
+    /// Demeans a block of up to `MAX_BLOCK` columns; returns the iterations and
+    /// the measured convergence value (largest over the block).
+    fn block(
         &self,
-        x: &mut [f64],
+        cols: &mut [&mut Vec<f64>],
         groupings: &[GroupCodes],
         tol: f64,
         max_iter: usize,
-    ) -> ColumnResult {
-        let scale = x.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-        if x.iter().any(|v| !v.is_finite()) {
-            return ColumnResult {
-                sweeps: 0,
-                converged: false,
-                change: f64::NAN,
-            };
-        }
-        if scale == 0.0 {
-            return ColumnResult {
-                sweeps: 0,
-                converged: true,
-                change: 0.0,
-            };
-        }
-        // Group sums of x, per grouping.
-        let sums: Vec<Vec<f64>> = groupings
-            .iter()
-            .map(|g| {
-                let mut s = vec![0.0; g.n_groups()];
-                for (&c, &v) in g.codes.iter().zip(x.iter()) {
-                    s[c as usize] += v;
+    ) -> (usize, f64) {
+        macro_rules! dispatch {
+            ($($b:literal)*) => {
+                match cols.len() {
+                    $($b => self.block_b::<$b>(cols, groupings, tol, max_iter),)*
+                    _ => (0, 0.0),
                 }
-                s
+            };
+        }
+        dispatch!(1 2 3 4 5 6 7 8)
+    }
+
+    fn block_b<const B: usize>(
+        &self,
+        cols: &mut [&mut Vec<f64>],
+        groupings: &[GroupCodes],
+        tol: f64,
+        max_iter: usize,
+    ) -> (usize, f64) {
+        let l = self.state_len();
+        let g0 = groupings[self.primary].n_groups();
+        let scale: Vec<f64> = cols
+            .iter()
+            .map(|c| c.iter().fold(0.0f64, |m, v| m.max(v.abs())))
+            .collect();
+        // Group sums of every column in every grouping (original order).
+        let sums: Vec<Vec<Vec<f64>>> = cols
+            .par_iter()
+            .map(|x| {
+                groupings
+                    .iter()
+                    .map(|g| {
+                        let mut s = vec![0.0; g.n_groups()];
+                        for (&c, &v) in g.codes.iter().zip(x.iter()) {
+                            s[c as usize] += v;
+                        }
+                        s
+                    })
+                    .collect()
             })
             .collect();
-        if self.others.is_empty() {
-            let g = &groupings[self.primary];
-            let means: Vec<f64> = sums[self.primary]
-                .iter()
-                .zip(&self.inv[self.primary])
-                .map(|(s, i)| s * i)
-                .collect();
-            for (v, &c) in x.iter_mut().zip(&g.codes) {
-                *v -= means[c as usize];
+        // Right side b = D'x − D'P_0x.
+        let mut mean0 = vec![[0.0; B]; g0];
+        for (c, s) in sums.iter().enumerate() {
+            for (g, m) in mean0.iter_mut().enumerate() {
+                m[c] = s[self.primary][g] * self.inv[self.primary][g];
             }
-            return ColumnResult {
-                sweeps: 1,
-                converged: true,
-                change: 0.0,
-            };
         }
-
-        let g0 = groupings[self.primary].n_groups();
-        let mut ws = Work {
-            theta0: vec![0.0; self.state_len],
-            theta1: vec![0.0; self.state_len],
-            theta2: vec![0.0; self.state_len],
-            alpha_prev: vec![0.0; g0],
-            alpha: vec![0.0; g0],
-            acc: vec![
-                0.0;
-                self.others
-                    .iter()
-                    .map(|&k| groupings[k].n_groups())
-                    .max()
-                    .unwrap_or(0)
-            ],
-        };
-        let mut sweeps = 0usize;
-        let mut converged = false;
-        let mut change = f64::NAN;
-        // Which buffer holds the final state: 0, 1 or 2.
-        let mut last = 0u8;
-        while sweeps < max_iter {
-            // θ₁ = F(θ₀)
-            self.sweep(
-                &sums,
-                &ws.theta0,
-                &mut ws.theta1,
-                &mut ws.alpha,
-                &mut ws.acc,
-            );
-            sweeps += 1;
-            change = self.change(&ws.theta0, &ws.theta1, &ws.alpha, &ws.alpha_prev) / scale;
-            std::mem::swap(&mut ws.alpha, &mut ws.alpha_prev);
-            last = 1;
-            if change <= tol {
-                converged = true;
-                break;
-            }
-            if sweeps >= max_iter {
-                break;
-            }
-            // θ₂ = F(θ₁)
-            self.sweep(
-                &sums,
-                &ws.theta1,
-                &mut ws.theta2,
-                &mut ws.alpha,
-                &mut ws.acc,
-            );
-            sweeps += 1;
-            change = self.change(&ws.theta1, &ws.theta2, &ws.alpha, &ws.alpha_prev) / scale;
-            std::mem::swap(&mut ws.alpha, &mut ws.alpha_prev);
-            last = 2;
-            if change <= tol {
-                converged = true;
-                break;
-            }
-            if sweeps >= max_iter {
-                break;
-            }
-            // Irons–Tuck: θ₀ ← θ₂ − (Δθ₂·Δ²θ / Δ²θ·Δ²θ) Δθ₂.
-            let (mut num, mut den) = (0.0, 0.0);
-            for ((&t0, &t1), &t2) in ws.theta0.iter().zip(&ws.theta1).zip(&ws.theta2) {
-                let d2 = t2 - t1;
-                let dd = t2 - 2.0 * t1 + t0;
-                num += d2 * dd;
-                den += dd * dd;
-            }
-            let step = if den > 0.0 && (num / den).is_finite() {
-                num / den
-            } else {
-                0.0
-            };
-            for ((t0, &t1), &t2) in ws.theta0.iter_mut().zip(&ws.theta1).zip(&ws.theta2) {
-                *t0 = t2 - step * (t2 - t1);
-            }
-            last = 0;
-        }
-        let theta = match last {
-            1 => &ws.theta1,
-            2 => &ws.theta2,
-            _ => &ws.theta0,
-        };
-        // Primary effects from the final θ, then the residual in the original order.
-        self.primary_step(&sums[self.primary], theta, &mut ws.alpha);
-        let alpha = &ws.alpha;
-        let codes0 = &groupings[self.primary].codes;
-        match self.others.as_slice() {
-            [k] => {
-                let c1 = &groupings[*k].codes;
-                for ((v, &a), &b) in x.iter_mut().zip(codes0).zip(c1) {
-                    *v -= alpha[a as usize] + theta[b as usize];
+        let mut r = self.spread(&mean0);
+        for (c, s) in sums.iter().enumerate() {
+            for (&k, &off) in self.others.iter().zip(&self.offsets) {
+                for (h, &v) in s[k].iter().enumerate() {
+                    r[off + h][c] = v - r[off + h][c];
                 }
             }
-            _ => {
-                for (i, v) in x.iter_mut().enumerate() {
-                    let mut fit = alpha[codes0[i] as usize];
-                    for (&k, &off) in self.others.iter().zip(&self.offsets) {
-                        fit += theta[off + groupings[k].codes[i] as usize];
+        }
+        // Preconditioned conjugate gradients, one per column.
+        let mut theta = vec![[0.0; B]; l];
+        let mut active = [true; B];
+        let crit = |r: &[[f64; B]], c: usize| -> f64 {
+            r.iter()
+                .zip(&self.inv_state)
+                .fold(0.0f64, |m, (v, i)| m.max((v[c] * i).abs()))
+                / scale[c]
+        };
+        for (c, a) in active.iter_mut().enumerate() {
+            *a = crit(&r, c) > tol;
+        }
+        let mut z: Vec<[f64; B]> = r
+            .iter()
+            .zip(&self.precond)
+            .map(|(v, &m)| std::array::from_fn(|c| v[c] * m))
+            .collect();
+        let mut p = z.clone();
+        let mut rz: [f64; B] = std::array::from_fn(|c| dot(&r, &z, c));
+        let mut iterations = 0;
+        while iterations < max_iter && active.iter().any(|&a| a) {
+            for (pv, _) in p.iter_mut().zip(0..) {
+                for c in 0..B {
+                    if !active[c] {
+                        pv[c] = 0.0;
                     }
-                    *v -= fit;
+                }
+            }
+            let q = self.apply(&p);
+            iterations += 1;
+            for c in 0..B {
+                if !active[c] {
+                    continue;
+                }
+                let pq = dot(&p, &q, c);
+                if !(pq.is_finite() && pq > 0.0) {
+                    active[c] = false;
+                    continue;
+                }
+                let alpha = rz[c] / pq;
+                for ((t, pv), (rv, qv)) in theta.iter_mut().zip(&p).zip(r.iter_mut().zip(&q)) {
+                    t[c] += alpha * pv[c];
+                    rv[c] -= alpha * qv[c];
+                }
+                if crit(&r, c) <= tol {
+                    active[c] = false;
+                    continue;
+                }
+                for ((zv, rv), &m) in z.iter_mut().zip(&r).zip(&self.precond) {
+                    zv[c] = rv[c] * m;
+                }
+                let rz_new = dot(&r, &z, c);
+                let beta = rz_new / rz[c];
+                rz[c] = rz_new;
+                for (pv, zv) in p.iter_mut().zip(&z) {
+                    pv[c] = zv[c] + beta * pv[c];
                 }
             }
         }
-        ColumnResult {
-            sweeps,
-            converged,
-            change,
-        }
-    }
-
-    /// `α_0 = D_0⁻¹(D_0'x − D_0'Σ_{j≥1}D_jθ_j)`.
-    fn primary_step(&self, sum0: &[f64], theta: &[f64], alpha: &mut [f64]) {
+        // α_0 = D_0⁻¹(D_0'x − D_0'Dθ), then the result in the original order,
+        // with its group sums measured in every non-primary grouping.
+        let fitted0 = self.gather(&theta);
+        let codes0 = &groupings[self.primary].codes;
         let inv0 = &self.inv[self.primary];
-        match self.sorted.as_slice() {
-            [s1] => {
-                for g in 0..alpha.len() {
-                    let run = &s1[self.starts[g]..self.starts[g + 1]];
-                    let fitted: f64 = run.iter().map(|&c| theta[c as usize]).sum();
-                    alpha[g] = (sum0[g] - fitted) * inv0[g];
-                }
-            }
-            _ => {
-                for g in 0..alpha.len() {
-                    let mut fitted = 0.0;
-                    for p in self.starts[g]..self.starts[g + 1] {
-                        for (s, &off) in self.sorted.iter().zip(&self.offsets) {
-                            fitted += theta[off + s[p] as usize];
+        let measured: Vec<f64> = cols
+            .par_iter_mut()
+            .zip(sums.par_iter())
+            .enumerate()
+            .map(|(c, (x, s))| {
+                let alpha0: Vec<f64> = (0..g0)
+                    .map(|g| (s[self.primary][g] - fitted0[g][c]) * inv0[g])
+                    .collect();
+                let th: Vec<f64> = theta.iter().map(|t| t[c]).collect();
+                let mut check = vec![0.0; l];
+                match self.others.as_slice() {
+                    [k] => {
+                        let c1 = &groupings[*k].codes;
+                        for ((v, &a), &b) in x.iter_mut().zip(codes0).zip(c1) {
+                            *v -= alpha0[a as usize] + th[b as usize];
+                            check[b as usize] += *v;
                         }
                     }
-                    alpha[g] = (sum0[g] - fitted) * inv0[g];
-                }
-            }
-        }
-    }
-
-    /// One plain sweep: θ_out = F(θ_in), with the primary effects in `alpha`.
-    fn sweep(
-        &self,
-        sums: &[Vec<f64>],
-        theta_in: &[f64],
-        theta_out: &mut [f64],
-        alpha: &mut [f64],
-        acc: &mut [f64],
-    ) {
-        self.primary_step(&sums[self.primary], theta_in, alpha);
-        theta_out.copy_from_slice(theta_in);
-        for (j, &k) in self.others.iter().enumerate() {
-            let gk = sums[k].len();
-            let acc = &mut acc[..gk];
-            acc.copy_from_slice(&sums[k]);
-            let sj = &self.sorted[j];
-            if self.others.len() == 1 {
-                for (g, &a) in alpha.iter().enumerate() {
-                    for &c in &sj[self.starts[g]..self.starts[g + 1]] {
-                        acc[c as usize] -= a;
-                    }
-                }
-            } else {
-                for (g, &a) in alpha.iter().enumerate() {
-                    for p in self.starts[g]..self.starts[g + 1] {
-                        let mut fit = a;
-                        for (l, (s, &off)) in self.sorted.iter().zip(&self.offsets).enumerate() {
-                            if l != j {
-                                fit += theta_out[off + s[p] as usize];
+                    _ => {
+                        for (i, v) in x.iter_mut().enumerate() {
+                            let mut fit = alpha0[codes0[i] as usize];
+                            for (&k, &off) in self.others.iter().zip(&self.offsets) {
+                                fit += th[off + groupings[k].codes[i] as usize];
+                            }
+                            *v -= fit;
+                            for (&k, &off) in self.others.iter().zip(&self.offsets) {
+                                check[off + groupings[k].codes[i] as usize] += *v;
                             }
                         }
-                        acc[sj[p] as usize] -= fit;
                     }
                 }
-            }
-            let off = self.offsets[j];
-            for ((t, &s), &i) in theta_out[off..off + gk]
-                .iter_mut()
-                .zip(acc.iter())
-                .zip(&self.inv[k])
-            {
-                *t = s * i;
-            }
-        }
+                check
+                    .iter()
+                    .zip(&self.inv_state)
+                    .fold(0.0f64, |m, (v, i)| m.max((v * i).abs()))
+                    / scale[c]
+            })
+            .collect();
+        let worst = measured
+            .iter()
+            .fold(0.0f64, |m, &v| if v.is_nan() { f64::NAN } else { m.max(v) });
+        (iterations, worst)
     }
 
-    /// The change bound of one sweep (unscaled).
-    fn change(&self, before: &[f64], after: &[f64], alpha: &[f64], alpha_prev: &[f64]) -> f64 {
-        let mut total = max_abs_diff(alpha, alpha_prev);
-        for (j, &off) in self.offsets.iter().enumerate() {
-            let end = self.offsets.get(j + 1).copied().unwrap_or(self.state_len);
-            total += max_abs_diff(&before[off..end], &after[off..end]);
+    /// Runs `f` on each chunk of primary groups in parallel, each with a zeroed
+    /// output of `len` entries, and adds the partial outputs in chunk order.
+    fn chunked<const B: usize, F>(&self, len: usize, f: F) -> Vec<[f64; B]>
+    where
+        F: Fn(usize, usize, &mut [[f64; B]]) + Sync,
+    {
+        let parts: Vec<Vec<[f64; B]>> = self
+            .chunks
+            .par_iter()
+            .map(|&(lo, hi)| {
+                let mut out = vec![[0.0; B]; len];
+                f(lo, hi, &mut out);
+                out
+            })
+            .collect();
+        let mut parts = parts.into_iter();
+        let mut total = parts.next().unwrap_or_else(|| vec![[0.0; B]; len]);
+        for part in parts {
+            for (t, v) in total.iter_mut().zip(&part) {
+                for c in 0..B {
+                    t[c] += v[c];
+                }
+            }
         }
         total
     }
+
+    /// `q = D'M_0D p`: per primary group, the values `Dp` on its rows minus
+    /// their mean, summed into the other groupings' levels.
+    fn apply<const B: usize>(&self, p: &[[f64; B]]) -> Vec<[f64; B]> {
+        let inv0 = &self.inv[self.primary];
+        self.chunked(p.len(), |lo, hi, out| match self.sorted.as_slice() {
+            [s1] => {
+                for g in lo..hi {
+                    let run = &s1[self.starts[g]..self.starts[g + 1]];
+                    let mut m = [0.0; B];
+                    for &h in run {
+                        let v = &p[h as usize];
+                        for c in 0..B {
+                            m[c] += v[c];
+                        }
+                    }
+                    for mc in m.iter_mut() {
+                        *mc *= inv0[g];
+                    }
+                    for &h in run {
+                        let v = p[h as usize];
+                        let o = &mut out[h as usize];
+                        for c in 0..B {
+                            o[c] += v[c] - m[c];
+                        }
+                    }
+                }
+            }
+            sorted => {
+                for (g, &ig) in inv0.iter().enumerate().take(hi).skip(lo) {
+                    let (s, e) = (self.starts[g], self.starts[g + 1]);
+                    let mut m = [0.0; B];
+                    for codes in sorted {
+                        for &h in &codes[s..e] {
+                            let v = &p[h as usize];
+                            for c in 0..B {
+                                m[c] += v[c];
+                            }
+                        }
+                    }
+                    for mc in m.iter_mut() {
+                        *mc *= ig;
+                    }
+                    for i in s..e {
+                        let mut v = [0.0; B];
+                        for codes in sorted {
+                            let t = &p[codes[i] as usize];
+                            for c in 0..B {
+                                v[c] += t[c];
+                            }
+                        }
+                        for codes in sorted {
+                            let o = &mut out[codes[i] as usize];
+                            for c in 0..B {
+                                o[c] += v[c] - m[c];
+                            }
+                        }
+                    }
+                }
+            }
+        })
+    }
+
+    /// `D'D_0 a`: each primary group's value added to the other groupings'
+    /// levels of its rows.
+    fn spread<const B: usize>(&self, a: &[[f64; B]]) -> Vec<[f64; B]> {
+        self.chunked(self.state_len(), |lo, hi, out| {
+            for g in lo..hi {
+                let v = a[g];
+                for codes in &self.sorted {
+                    for &h in &codes[self.starts[g]..self.starts[g + 1]] {
+                        let o = &mut out[h as usize];
+                        for c in 0..B {
+                            o[c] += v[c];
+                        }
+                    }
+                }
+            }
+        })
+    }
+
+    /// `D_0'Dθ`: per primary group, the sum of θ over its rows and groupings.
+    fn gather<const B: usize>(&self, theta: &[[f64; B]]) -> Vec<[f64; B]> {
+        let g0 = self.starts.len() - 1;
+        let mut out = vec![[0.0; B]; g0];
+        out.par_iter_mut()
+            .with_min_len(1 << 12)
+            .enumerate()
+            .for_each(|(g, o)| {
+                for codes in &self.sorted {
+                    for &h in &codes[self.starts[g]..self.starts[g + 1]] {
+                        let t = &theta[h as usize];
+                        for c in 0..B {
+                            o[c] += t[c];
+                        }
+                    }
+                }
+            });
+        out
+    }
 }
 
-struct Work {
-    theta0: Vec<f64>,
-    theta1: Vec<f64>,
-    theta2: Vec<f64>,
-    alpha_prev: Vec<f64>,
-    alpha: Vec<f64>,
-    acc: Vec<f64>,
-}
-
-fn max_abs_diff(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).fold(0.0f64, |m, (x, y)| {
-        let d = (x - y).abs();
-        if d.is_nan() || m.is_nan() {
-            f64::NAN
-        } else {
-            m.max(d)
-        }
-    })
+fn dot<const B: usize>(a: &[[f64; B]], b: &[[f64; B]], c: usize) -> f64 {
+    a.iter().zip(b).map(|(x, y)| x[c] * y[c]).sum()
 }

@@ -184,6 +184,9 @@ pub fn nested_in(inner: &GroupCodes, outer: &GroupCodes) -> bool {
 /// (an exact count needs the rank of the full indicator matrix). Undercounting
 /// redundancy overcounts absorbed levels, so the residual degrees of freedom
 /// come out too small: standard errors err on the large (conservative) side.
+/// For two or more groupings, the rank of all indicator columns together (the
+/// intercept lies in their span) is `Σ levels − redundant_levels`; for one
+/// grouping the 1 is the level the intercept takes (its rank is all G levels).
 /// Groupings whose code lengths differ from the first are ignored.
 pub fn redundant_levels(groupings: &[GroupCodes]) -> usize {
     let Some(first) = groupings.first() else {
