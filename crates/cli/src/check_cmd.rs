@@ -51,6 +51,16 @@ pub fn run(file: &Path, format: Format) -> Result<bool, String> {
     Ok(!checked.has_errors())
 }
 
+/// The folder paths in a model file are relative to: absolute, so that
+/// messages about missing data files say where we looked.
+pub fn model_base_dir(file: &Path) -> std::path::PathBuf {
+    let parent = file
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    std::fs::canonicalize(parent).unwrap_or_else(|_| parent.to_path_buf())
+}
+
 /// A model file as text; errors name the file.
 pub fn read_model_file(file: &Path) -> Result<String, String> {
     let bytes = std::fs::read(file)

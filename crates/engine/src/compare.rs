@@ -109,10 +109,11 @@ fn solve(mut v: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
         }
         v.swap(col, pivot);
         b.swap(col, pivot);
+        let pivot_row = v[col].clone();
         for row in col + 1..n {
-            let f = v[row][col] / v[col][col];
-            for k in col..n {
-                v[row][k] -= f * v[col][k];
+            let f = v[row][col] / pivot_row[col];
+            for (a, p) in v[row][col..].iter_mut().zip(&pivot_row[col..]) {
+                *a -= f * p;
             }
             b[row] -= f * b[col];
         }

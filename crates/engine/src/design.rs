@@ -52,6 +52,16 @@ pub fn build(
         .as_ref()
         .ok_or_else(|| err("the model has no outcome".into()))?;
 
+    // Each grouping column is indexed once, however often it is used.
+    let mut indexes: std::collections::HashMap<usize, frame::GroupIndex> =
+        std::collections::HashMap::new();
+    for g in model.fixed.iter().chain(&model.cluster) {
+        indexes
+            .entry(g.column)
+            .or_insert_with(|| frame::GroupIndex::from_column(&frame.columns()[g.column]));
+    }
+    let codes_over = |column: usize, rows: &[usize]| codes_over(&indexes[&column], rows);
+
     // Singletons first: they change the sample, and with it every group mean.
     let mut singletons = 0;
     if !model.fixed.is_empty() {
@@ -59,7 +69,7 @@ pub fn build(
         let codes: Vec<GroupCodes> = model
             .fixed
             .iter()
-            .map(|g| codes_over(frame, g.column, &rows))
+            .map(|g| codes_over(g.column, &rows))
             .collect();
         let (keep, dropped) = singleton_rows(&codes);
         singletons = dropped;
@@ -109,12 +119,12 @@ pub fn build(
     let fixed = model
         .fixed
         .iter()
-        .map(|g| (g.name.clone(), codes_over(frame, g.column, &rows)))
+        .map(|g| (g.name.clone(), codes_over(g.column, &rows)))
         .collect();
     let clusters = model
         .cluster
         .iter()
-        .map(|g| (g.name.clone(), codes_over(frame, g.column, &rows)))
+        .map(|g| (g.name.clone(), codes_over(g.column, &rows)))
         .collect();
     Ok(Design {
         rows,
@@ -131,8 +141,7 @@ pub fn build(
 
 /// Dense codes of a grouping column over the given rows (none of them missing:
 /// the checker left rows with a missing grouping out of the sample).
-fn codes_over(frame: &Frame, column: usize, rows: &[usize]) -> GroupCodes {
-    let index = frame::GroupIndex::from_column(&frame.columns()[column]);
+fn codes_over(index: &frame::GroupIndex, rows: &[usize]) -> GroupCodes {
     let ids: Vec<u32> = rows
         .iter()
         .map(|&r| {

@@ -67,6 +67,8 @@ pub struct FitStats {
     pub converged: bool,
     /// Sweeps of the within transform (0 without fixed effects).
     pub iterations: usize,
+    /// The convergence tolerance the within transform used.
+    pub tolerance: f64,
     pub rss: f64,
 }
 
@@ -75,6 +77,8 @@ pub struct FitStats {
 pub struct Dropped {
     pub where_excluded: usize,
     pub missing: usize,
+    /// For each variable, the rows it was missing in (a row can count for several).
+    pub missing_by: Vec<(String, usize)>,
     pub singletons: usize,
 }
 
@@ -157,6 +161,31 @@ pub fn fit(
             )));
         }
     }
+    // Columns the fixed effects absorb come out of the within transform as
+    // (numerically) zero: drop them with a note before least squares, which
+    // would otherwise rescale the rounding noise into a column of its own.
+    if !codes.is_empty() {
+        let mut j = 0;
+        while j < design.columns.len() {
+            if norm(&design.columns[j]) <= 1e-9 * scales[j].max(f64::MIN_POSITIVE) {
+                notes.push(format!(
+                    "`{}` does not vary within the fixed effects and was dropped",
+                    design.labels[j]
+                ));
+                design.columns.remove(j);
+                design.labels.remove(j);
+                design.term_of.remove(j);
+                scales.remove(j);
+            } else {
+                j += 1;
+            }
+        }
+        if design.columns.is_empty() {
+            return Err(err(
+                "every term is absorbed by the fixed effects; nothing is left to estimate".into(),
+            ));
+        }
+    }
     let k_all = design.columns.len();
     if k_all == 0 {
         return Err(err("the model has no terms to estimate".into()));
@@ -164,32 +193,18 @@ pub fn fit(
     let x = Mat::from_fn(n, k_all, |i, j| design.columns[j][i]);
     let solved = ols(x.as_ref(), &design.y);
 
-    // Aliased columns: absorbed by the fixed effects (dropped with a note), or a
-    // genuine collinearity among the terms (an error naming them).
-    for &j in &solved.aliased {
-        let label = &design.labels[j];
-        let absorbed = !codes.is_empty()
-            && norm(&design.columns[j]) <= 1e-8 * scales[j].max(f64::MIN_POSITIVE);
-        if absorbed {
-            notes.push(format!(
-                "`{label}` does not vary within the fixed effects and was dropped"
-            ));
-            continue;
-        }
+    // Aliased columns now mean a genuine collinearity among the terms: an error naming them.
+    if let Some(&j) = solved.aliased.first() {
         let partners = collinear_partners(&design, &solved.kept, j);
         return Err(err(format!(
-            "the terms are collinear: `{label}` is a linear combination of {}; remove one of them",
+            "the terms are collinear: `{}` is a linear combination of {}; remove one of them",
+            design.labels[j],
             if partners.is_empty() {
                 "the other terms".to_string()
             } else {
                 partners.join(", ")
             }
         )));
-    }
-    if solved.kept.is_empty() {
-        return Err(err(
-            "every term is absorbed by the fixed effects; nothing is left to estimate".into(),
-        ));
     }
     let k = solved.kept.len();
     let xk = Mat::from_fn(n, k, |i, j| design.columns[solved.kept[j]][i]);
@@ -316,6 +331,7 @@ pub fn fit(
         dropped: Dropped {
             where_excluded: rows.map_or(0, |r| r.excluded_by_where),
             missing: rows.map_or(0, |r| r.dropped_missing),
+            missing_by: rows.map_or_else(Vec::new, |r| r.missing_by.clone()),
             singletons: design.singletons,
         },
         coefficients,
@@ -338,6 +354,7 @@ pub fn fit(
             bic: -2.0 * loglik + nf.ln() * params,
             converged,
             iterations,
+            tolerance: options.tolerance,
             rss,
         },
         notes,
