@@ -207,7 +207,9 @@ pub fn fit(
         )));
     }
     let k = solved.kept.len();
-    let xk = Mat::from_fn(n, k, |i, j| design.columns[solved.kept[j]][i]);
+    // Nothing is aliased past this point, so every column of `x` is kept.
+    debug_assert_eq!(k, k_all);
+    let xk = x;
 
     let absorbed_levels = absorbed_rank(&codes);
     let df_resid = n as f64 - k as f64 - absorbed_levels as f64;
