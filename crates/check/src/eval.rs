@@ -25,6 +25,14 @@ pub enum Evaluated {
 }
 
 impl Evaluated {
+    /// As [`Evaluated::to_numbers`], without copying when the values already are numbers.
+    pub fn into_numbers(self, n: usize) -> Vec<f64> {
+        match self {
+            Evaluated::Numbers(v) => v,
+            other => other.to_numbers(n),
+        }
+    }
+
     /// As numbers, one per row (categories become 1-based codes so that every
     /// level differs from zero; missing stays NaN).
     pub fn to_numbers(&self, n: usize) -> Vec<f64> {
@@ -272,7 +280,7 @@ impl<'a> Evaluator<'a> {
 
     /// Evaluate as one number per row.
     pub fn numbers(&self, value: &Value) -> Vec<f64> {
-        self.eval(value).to_numbers(self.n())
+        self.eval(value).into_numbers(self.n())
     }
 
     fn binary(&self, op: BinaryOp, a: &Value, b: &Value) -> Evaluated {

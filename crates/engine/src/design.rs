@@ -197,7 +197,7 @@ fn expand_term(ev: &Evaluator<'_>, term: &ResolvedTerm, rows: &[usize]) -> Vec<(
                 pieces = next;
             }
             other => {
-                let x = other.to_numbers(ev.n());
+                let x = other.into_numbers(ev.n());
                 let label = if f.power > 1 {
                     format!("{}^{}", f.label, f.power)
                 } else {

@@ -111,19 +111,38 @@ const SETUPS: [Setup; 3] = [
     },
 ];
 
-pub fn run_fe(units: usize, periods: usize, keep: bool) -> Result<String, String> {
+pub fn run_fe(units: usize, periods: usize, keep: bool, baseline: bool) -> Result<String, String> {
     let dir = std::env::temp_dir().join("slopewise-bench");
     std::fs::create_dir_all(&dir).map_err(|e| format!("{}: {e}", dir.display()))?;
     let csv = dir.join(format!("fe-{units}x{periods}.csv"));
-    let result = measure(&dir, &csv, units, periods);
+    let result = measure(&dir, &csv, units, periods, baseline);
     if !keep {
         let _ = std::fs::remove_file(&csv);
     }
     result
 }
 
-fn measure(dir: &Path, csv: &Path, units: usize, periods: usize) -> Result<String, String> {
-    let mut out = String::new();
+/// Collects the report and prints each line as soon as it is known, since the
+/// baseline can take minutes.
+struct Report(String);
+
+impl std::fmt::Write for Report {
+    fn write_str(&mut self, s: &str) -> std::fmt::Result {
+        print!("{s}");
+        let _ = std::io::stdout().flush();
+        self.0.push_str(s);
+        Ok(())
+    }
+}
+
+fn measure(
+    dir: &Path,
+    csv: &Path,
+    units: usize,
+    periods: usize,
+    baseline: bool,
+) -> Result<String, String> {
+    let mut out = Report(String::new());
     let (rows, bytes) =
         generate(csv, units, periods).map_err(|e| format!("{}: {e}", csv.display()))?;
     let _ = writeln!(
@@ -181,6 +200,9 @@ fn measure(dir: &Path, csv: &Path, units: usize, periods: usize) -> Result<Strin
             "  coefficients {} (true 0.5 -0.3 0.2 0.1 -0.4)",
             coef.join(" ")
         );
+        if !baseline {
+            continue;
+        }
         match numpy(dir, csv, s) {
             Ok(Some((secs, iterations))) => {
                 let _ = writeln!(
@@ -200,7 +222,7 @@ fn measure(dir: &Path, csv: &Path, units: usize, periods: usize) -> Result<Strin
             }
         }
     }
-    Ok(out)
+    Ok(out.0)
 }
 
 /// Run the baseline script; `None` when Python or its libraries are missing.

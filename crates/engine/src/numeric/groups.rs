@@ -102,9 +102,26 @@ impl GroupCodes {
                 b.codes.len()
             )));
         }
-        let mut map: HashMap<u64, u32> = HashMap::with_capacity(a.n_groups().max(b.n_groups()));
         let mut codes = Vec::with_capacity(a.codes.len());
         let mut counts: Vec<u32> = Vec::new();
+        // A dense table of all pairs when it is not much larger than the data
+        // (units × periods usually is not): one lookup per row, no hashing.
+        let pairs = a.n_groups() as u64 * b.n_groups() as u64;
+        if pairs <= (4 * a.codes.len() as u64).max(1 << 20) {
+            let nb = b.n_groups();
+            let mut table = vec![u32::MAX; pairs as usize];
+            for (&x, &y) in a.codes.iter().zip(&b.codes) {
+                let slot = &mut table[x as usize * nb + y as usize];
+                if *slot == u32::MAX {
+                    *slot = counts.len() as u32;
+                    counts.push(0);
+                }
+                counts[*slot as usize] += 1;
+                codes.push(*slot);
+            }
+            return Ok(GroupCodes { codes, counts });
+        }
+        let mut map: HashMap<u64, u32> = HashMap::with_capacity(a.codes.len().min(1 << 24));
         for (&x, &y) in a.codes.iter().zip(&b.codes) {
             let key = ((x as u64) << 32) | y as u64;
             let next = counts.len() as u32;
