@@ -246,3 +246,57 @@ fn rank_tolerance_is_documented_value() {
     assert_eq!(rank_tolerance(1000, 5), 1000.0 * f64::EPSILON);
     assert_eq!(rank_tolerance(0, 0), f64::EPSILON);
 }
+
+/// The blocked QR path (more than 4 × 65,536 rows) gives the same fit as the
+/// normal equations solved directly on well-conditioned data.
+#[test]
+fn a_tall_design_is_solved_by_blocks_with_the_same_answer() {
+    let n = 300_000;
+    let mut state = 12345u64;
+    let mut next = || {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+    };
+    let cols: Vec<Vec<f64>> = (0..3).map(|_| (0..n).map(|_| next()).collect()).collect();
+    let y: Vec<f64> = (0..n)
+        .map(|i| 1.0 * cols[0][i] - 2.0 * cols[1][i] + 0.5 * cols[2][i] + 0.1 * next())
+        .collect();
+    let x = faer::Mat::from_fn(n, 3, |i, j| cols[j][i]);
+    let fit = engine::numeric::ols(x.as_ref(), &y);
+    // Normal equations: X'X b = X'y, solved by Cramer's rule on the 3 × 3 system.
+    let dot = |a: &[f64], b: &[f64]| a.iter().zip(b).map(|(p, q)| p * q).sum::<f64>();
+    let g: Vec<Vec<f64>> = (0..3)
+        .map(|i| (0..3).map(|j| dot(&cols[i], &cols[j])).collect())
+        .collect();
+    let r: Vec<f64> = (0..3).map(|i| dot(&cols[i], &y)).collect();
+    let det = |m: &Vec<Vec<f64>>| {
+        m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
+            - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
+            + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0])
+    };
+    let d = det(&g);
+    for k in 0..3 {
+        let mut mk = g.clone();
+        for i in 0..3 {
+            mk[i][k] = r[i];
+        }
+        let want = det(&mk) / d;
+        assert!(
+            (fit.coef[k] - want).abs() < 1e-9 * want.abs(),
+            "{k}: {} vs {want}",
+            fit.coef[k]
+        );
+    }
+    // (X'X)⁻¹ times X'X is the identity.
+    for i in 0..3 {
+        for j in 0..3 {
+            let v: f64 = (0..3).map(|l| fit.xtx_inv[(i, l)] * g[l][j]).sum();
+            assert!(
+                (v - f64::from(u8::from(i == j))).abs() < 1e-9,
+                "{i},{j}: {v}"
+            );
+        }
+    }
+}

@@ -172,7 +172,7 @@ fn choose_columns(
             y[i] / y_scale
         }
     });
-    let r0 = m.qr().thin_R().to_owned();
+    let r0 = tall_r(m.as_ref());
     let rows = r0.nrows();
     let a = Mat::from_fn(rows, q, |i, j| if i <= j { r0[(i, j)] } else { 0.0 });
     let tol = rank_tolerance(n, k);
@@ -253,4 +253,39 @@ fn norm2(values: impl Iterator<Item = f64> + Clone) -> f64 {
         return big;
     }
     big * values.map(|v| (v / big) * (v / big)).sum::<f64>().sqrt()
+}
+
+/// Rows per block of the tall QR: a block of a few columns stays in cache.
+const QR_BLOCK: usize = 1 << 16;
+
+/// The R factor of a tall, narrow matrix by blocks (a "tall-skinny" QR): the
+/// R of each block of rows in parallel, then the R of those stacked. The result
+/// equals the R of one QR of the whole matrix up to the signs of its rows,
+/// which neither the solution nor (X'X)⁻¹ = R⁻¹R⁻ᵀ depends on.
+fn tall_r(m: MatRef<'_, f64>) -> Mat<f64> {
+    use rayon::prelude::*;
+    let (n, c) = (m.nrows(), m.ncols());
+    if n <= 4 * QR_BLOCK {
+        return m.qr().thin_R().to_owned();
+    }
+    let starts: Vec<usize> = (0..n).step_by(QR_BLOCK).collect();
+    let parts: Vec<Mat<f64>> = starts
+        .par_iter()
+        .map(|&s| {
+            let len = QR_BLOCK.min(n - s);
+            m.subrows(s, len).qr().thin_R().to_owned()
+        })
+        .collect();
+    let total: usize = parts.iter().map(|p| p.nrows()).sum();
+    let mut stacked = Mat::<f64>::zeros(total, c);
+    let mut row = 0;
+    for p in &parts {
+        for i in 0..p.nrows() {
+            for j in 0..c {
+                stacked[(row + i, j)] = p[(i, j)];
+            }
+        }
+        row += p.nrows();
+    }
+    stacked.qr().thin_R().to_owned()
 }
