@@ -250,6 +250,7 @@ fn rank_tolerance_is_documented_value() {
 /// The blocked QR path (more than 4 × 65,536 rows) gives the same fit as the
 /// normal equations solved directly on well-conditioned data.
 #[test]
+#[allow(clippy::needless_range_loop)] // matrix algebra reads clearer with indexes
 fn a_tall_design_is_solved_by_blocks_with_the_same_answer() {
     let n = 300_000;
     let mut state = 12345u64;
