@@ -76,14 +76,13 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
             }
             Err(e) => {
                 all_ok = false;
-                let p = index.char_pos(&text, m.name_span.start);
-                eprintln!("{name}:{}:{}: error: {e}", p.line + 1, p.col + 1);
-                lines.push(DiagnosticLine {
-                    severity: "error",
-                    message: e.to_string(),
-                    line: p.line + 1,
-                    column: p.col + 1,
-                });
+                lines.push(estimation_error(
+                    &name,
+                    &text,
+                    &index,
+                    m.name_span.start,
+                    &e,
+                ));
             }
         }
     }
@@ -100,14 +99,7 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
                 Ok(r) => comparisons.push(r),
                 Err(e) => {
                     all_ok = false;
-                    let p = index.char_pos(&text, c.span.start);
-                    eprintln!("{name}:{}:{}: error: {e}", p.line + 1, p.col + 1);
-                    lines.push(DiagnosticLine {
-                        severity: "error",
-                        message: e.to_string(),
-                        line: p.line + 1,
-                        column: p.col + 1,
-                    });
+                    lines.push(estimation_error(&name, &text, &index, c.span.start, &e));
                 }
             }
         }
@@ -159,6 +151,24 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
         eprintln!("wrote {} and {}", md.display(), js.display());
     }
     Ok(all_ok)
+}
+
+/// Print an estimation error at its statement and keep it for the JSON document.
+fn estimation_error(
+    name: &str,
+    text: &str,
+    index: &LineIndex,
+    offset: usize,
+    e: &engine::FitError,
+) -> DiagnosticLine {
+    let p = index.char_pos(text, offset);
+    eprintln!("{name}:{}:{}: error: {e}", p.line + 1, p.col + 1);
+    DiagnosticLine {
+        severity: "error",
+        message: e.to_string(),
+        line: p.line + 1,
+        column: p.col + 1,
+    }
 }
 
 fn dedup<'a>(items: &[&'a str]) -> Vec<&'a str> {

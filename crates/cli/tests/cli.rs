@@ -1,25 +1,9 @@
 //! The binary end to end: exit codes, text and JSON output, on the demo data and
 //! the bad-input corpus.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("../..")
-}
-
-fn slopewise(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_slopewise"))
-        .args(args)
-        .current_dir(root())
-        .env("NO_COLOR", "1")
-        .output()
-        .expect("run slopewise")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use common::{root, slopewise, text};
 
 #[test]
 fn demo_files_check_clean_and_show_how_they_were_understood() {

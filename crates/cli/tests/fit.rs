@@ -3,25 +3,9 @@
 //! (Numerical accuracy is tested against outside references in
 //! crates/engine/tests/fit_reference.rs.)
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("../..")
-}
-
-fn slopewise(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_slopewise"))
-        .args(args)
-        .current_dir(root())
-        .env("NO_COLOR", "1")
-        .output()
-        .expect("run slopewise")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use common::{root, slopewise, text};
 
 #[test]
 fn the_panel_demo_fits_and_the_json_follows_the_design() {
