@@ -439,7 +439,7 @@ impl Ctx<'_> {
                 Some(s.value as u64)
             }
             Some(s) => {
-                let msg = format!("the seed `{}` must be a whole number of at least 0", s.text);
+                let msg = format!("`seed {}` needs a whole number of at least 0", s.text);
                 self.push(Diagnostic::error(codes::BAD_VALUE, s.span, msg));
                 None
             }

@@ -497,7 +497,7 @@ fn bootstrap<'t>() -> P<'t, Option<Bootstrap>> {
         .then(number("the number of bootstrap draws"))
         .then(
             kw("seed")
-                .ignore_then(number("the seed, a whole number"))
+                .ignore_then(number("a whole number after `seed`"))
                 .or_not(),
         )
         .map_with(|((_, draws), seed), e| Bootstrap {
