@@ -134,7 +134,23 @@ pub fn fit(
             "mixed models (with `vary`) cannot be estimated by this version yet; models with `fixed` or neither can".into(),
         ));
     }
-    let mut design = build(model, frame, panel)?;
+    let design = build(model, frame, panel)?;
+    estimate(model, design, options)
+}
+
+/// Estimate a model from a design already built on its sample (pre-transform
+/// columns). Split from [`fit`] so that resampling methods can refit a
+/// rearranged design without evaluating the terms again; `model` supplies only
+/// the settings (errors, df method, kind) and the row account.
+pub fn estimate(
+    model: &ResolvedModel,
+    mut design: Design,
+    options: &FitOptions,
+) -> Result<ModelFit, FitError> {
+    let err = |message: String| FitError {
+        model: model.name.clone(),
+        message,
+    };
     let n = design.rows.len();
     let y_raw = design.y.clone();
     let mut notes = Vec::new();

@@ -10,10 +10,11 @@ pub mod compare;
 pub mod design;
 pub mod fit;
 pub mod numeric;
+pub mod probe;
 
 pub use compare::{compare, Comparison};
 pub use design::Design;
-pub use fit::{fit, Coefficient, Dropped, FitOptions, FitStats, ModelFit};
+pub use fit::{estimate, fit, Coefficient, Dropped, FitOptions, FitStats, ModelFit};
 
 /// Why a model could not be estimated; the message is a full sentence.
 #[derive(Clone, Debug, PartialEq)]
