@@ -6,12 +6,36 @@
 //! vector, its covariance matrix and a df rule per contrast. Least squares and
 //! within models supply a constant df; mixed models will supply a
 //! Satterthwaite df per contrast without changes here.
+//!
+//! Module map: `point` (the model seen from the focal variable: term values and
+//! their derivatives by forward-mode dual numbers), `moderator` (moderator
+//! values: mean, SD, percentiles, over rows or groups), `contrast` (a linear
+//! contrast with its inference; the quadratic of interval inversion), `simple`
+//! (`probe`), `regions`, `turning`, `average` (`effect`), `figure` (`plot`),
+//! `bootstrap` and `rng` (the cluster bootstrap), `timing` (its benchmark).
+
+mod average;
+mod bootstrap;
+mod contrast;
+mod figure;
+mod moderator;
+mod point;
+mod regions;
+mod rng;
+mod simple;
+mod timing;
+mod turning;
+
+use std::borrow::Cow;
+
+pub use timing::{time_bootstrap, BootTiming};
 
 /// What probing needs from a fitted model.
 pub trait Inference {
     /// Coefficient labels, in the order of `coefficients` and the covariance.
     fn labels(&self) -> &[String];
-    fn coefficients(&self) -> &[f64];
+    /// Borrowed where the model stores them as a vector, built where it does not.
+    fn coefficients(&self) -> Cow<'_, [f64]>;
     /// Covariance of the coefficients (classical, robust or clustered as the model asked).
     fn covariance(&self, i: usize, j: usize) -> f64;
     /// Denominator df for the linear contrast `gradient · b`.
@@ -76,6 +100,10 @@ pub enum Significant {
     Outside,
     Everywhere,
     Nowhere,
+    /// Degenerate quadratic (one bound): significant above the bound.
+    Above,
+    /// Degenerate quadratic (one bound): significant below the bound.
+    Below,
 }
 
 #[derive(Clone, Debug, PartialEq)]
@@ -91,6 +119,11 @@ pub struct RegionsResult {
     pub significant: Significant,
     pub data_min: f64,
     pub data_max: f64,
+    /// With `bootstrap`: the stretches of the observed range of the moderator where
+    /// the percentile interval of the effect excludes zero (on a grid of 201 points).
+    pub boot_significant: Option<Vec<(f64, f64)>>,
+    /// Bootstrap draws and seed, when asked for.
+    pub bootstrap: Option<(u32, u64)>,
     pub notes: Vec<String>,
 }
 
@@ -115,6 +148,9 @@ pub struct TurningAt {
     /// `None` when the Fieller set is not a bounded interval; see `fieller_shape`.
     pub ci_fieller: Option<(f64, f64)>,
     pub fieller_shape: FiellerShape,
+    /// Real roots of the Fieller quadratic, ascending: the ends of the interval
+    /// (`Bounded`) or of the two rays (`TwoRays`); empty when `Unbounded`.
+    pub fieller_roots: Vec<f64>,
     pub slope_low: EndSlope,
     pub slope_high: EndSlope,
     /// Lind–Mehlum test of a U (or inverted U) against monotone or the opposite shape.
@@ -222,4 +258,126 @@ pub struct PlotResult {
     /// Where the SVG goes (already resolved against the model file's folder).
     pub path: std::path::PathBuf,
     pub notes: Vec<String>,
+}
+
+/// What one probing statement produced.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Output {
+    Probe(ProbeResult),
+    Regions(RegionsResult),
+    Turning(TurningResult),
+    Effect(EffectResult),
+    Plot(PlotResult),
+}
+
+/// Settings of a probing run.
+#[derive(Clone)]
+pub struct ProbeOptions<'a> {
+    /// Confidence level of intervals (0.95).
+    pub level: f64,
+    /// Called once per finished bootstrap draw (for a progress bar); must be cheap.
+    pub on_draw: Option<&'a (dyn Fn() + Sync)>,
+    /// Refit options for bootstrap draws.
+    pub fit: crate::FitOptions,
+}
+
+impl Default for ProbeOptions<'_> {
+    fn default() -> Self {
+        ProbeOptions {
+            level: 0.95,
+            on_draw: None,
+            fit: crate::FitOptions::default(),
+        }
+    }
+}
+
+/// Answer one checked probing statement from a fitted model.
+///
+/// `model` and `frame` are the ones `fit` was estimated from; they are needed to
+/// evaluate the focal variable's terms at chosen points and, for the bootstrap,
+/// to rebuild the design.
+pub fn run(
+    request: &check::Request,
+    model: &check::ResolvedModel,
+    fit: &crate::ModelFit,
+    frame: &frame::Frame,
+    panel: Option<&check::PanelIndex>,
+    options: &ProbeOptions,
+) -> Result<Output, crate::FitError> {
+    let err = |message: String| crate::FitError {
+        model: model.name.clone(),
+        message,
+    };
+    if fit.name != model.name {
+        return Err(err(format!(
+            "the estimates given are those of model `{}`, not of `{}`; probe a model with its own fit",
+            fit.name, model.name
+        )));
+    }
+    if !(options.level > 0.0 && options.level < 1.0) {
+        return Err(err(format!(
+            "the confidence level {} is not between 0 and 1",
+            options.level
+        )));
+    }
+    if let Some((0, _)) = request.bootstrap {
+        return Err(err(
+            "`bootstrap 0` asks for no draws; give at least 1 (2000 is common practice)".into(),
+        ));
+    }
+    let ctx = point::Focal::new(
+        model,
+        fit,
+        frame,
+        panel,
+        &request.focal,
+        request.moderator.as_deref(),
+    )
+    .map_err(err)?;
+    let boot =
+        |n_seed: (u32, u64)| bootstrap::Resampler::new(model, fit, frame, panel, n_seed, options);
+    let out = match request.kind {
+        check::RequestKind::Probe => {
+            simple::probe(request, &ctx, fit, model, frame, options, &boot).map(Output::Probe)
+        }
+        check::RequestKind::Regions => {
+            regions::regions(request, &ctx, fit, &boot).map(Output::Regions)
+        }
+        check::RequestKind::Turning => {
+            turning::turning(request, &ctx, fit, model, frame, options, &boot).map(Output::Turning)
+        }
+        check::RequestKind::Effect => {
+            average::effect(request, &ctx, fit, options).map(Output::Effect)
+        }
+        check::RequestKind::Plot => {
+            figure::plot(request, &ctx, fit, model, frame, options).map(Output::Plot)
+        }
+    };
+    out.map_err(err)
+}
+
+impl Inference for crate::ModelFit {
+    fn labels(&self) -> &[String] {
+        &self.design.labels
+    }
+
+    fn coefficients(&self) -> Cow<'_, [f64]> {
+        Cow::Owned(self.coefficients.iter().map(|c| c.estimate).collect())
+    }
+
+    fn covariance(&self, i: usize, j: usize) -> f64 {
+        self.vcov[(i, j)]
+    }
+
+    /// Least squares and within models test every contrast on the same df.
+    fn df_for(&self, _gradient: &[f64]) -> f64 {
+        self.df_inference
+    }
+
+    fn df_words(&self) -> String {
+        match self.errors {
+            check::ErrorsKind::Cluster => "clusters − 1".into(),
+            _ => "residual".into(),
+        }
+    }
 }

@@ -1,0 +1,94 @@
+//! Moderator values from `at` specifications.
+//!
+//! Mean, SD (n − 1), minimum, maximum and percentiles (linear interpolation
+//! between order statistics) are taken over the estimation sample rows, except
+//! when the moderator is constant within the model's grouping (the first
+//! `fixed` grouping, else the first cluster grouping, else the first `vary`
+//! grouping): then it is a group-level variable and they are taken over one
+//! value per group, so large groups do not weigh more.
+
+use check::{AtSpec, ResolvedModel};
+use frame::{Frame, GroupIndex};
+
+use super::contrast::percentile_sorted;
+use super::StatsOver;
+
+pub(crate) struct ModeratorStats {
+    pub over: (StatsOver, Option<String>),
+    /// Sorted values the statistics are over.
+    sorted: Vec<f64>,
+    pub mean: f64,
+    pub sd: f64,
+}
+
+impl ModeratorStats {
+    /// `w_rows` are the moderator's values on the sample rows `rows` (frame rows).
+    pub fn new(model: &ResolvedModel, frame: &Frame, rows: &[usize], w_rows: &[f64]) -> Self {
+        let grouping = model
+            .fixed
+            .first()
+            .or(model.cluster.first())
+            .or(model.random.first().map(|r| &r.group));
+        let mut over = (StatsOver::Rows, None);
+        let mut values = w_rows.to_vec();
+        if let Some(g) = grouping {
+            let index = GroupIndex::from_column(&frame.columns()[g.column]);
+            if let Some(per_group) = constant_within(&index, rows, w_rows) {
+                over = (StatsOver::Groups, Some(g.name.clone()));
+                values = per_group;
+            }
+        }
+        let (mean, sd) = check::mean_sd(&values);
+        values.sort_by(f64::total_cmp);
+        ModeratorStats {
+            over,
+            sorted: values,
+            mean,
+            sd,
+        }
+    }
+
+    pub fn value(&self, spec: AtSpec) -> f64 {
+        match spec {
+            AtSpec::Number(v) => v,
+            AtSpec::Sd(k) => self.mean + k * self.sd,
+            AtSpec::Mean => self.mean,
+            AtSpec::Min => self.sorted.first().copied().unwrap_or(f64::NAN),
+            AtSpec::Max => self.sorted.last().copied().unwrap_or(f64::NAN),
+            AtSpec::Percentile(p) => percentile_sorted(&self.sorted, p as f64),
+        }
+    }
+
+    pub fn words(&self) -> String {
+        match &self.over {
+            (StatsOver::Groups, Some(g)) => format!(
+                "constant within `{g}`, so its mean, SD and percentiles are over the {} groups",
+                self.sorted.len()
+            ),
+            _ => format!(
+                "its mean, SD and percentiles are over the {} rows of the estimation sample",
+                self.sorted.len()
+            ),
+        }
+    }
+}
+
+/// One value per group (in order of first appearance) when the values do not
+/// change within any group of the sample rows (exact equality: a group-level
+/// variable is copied, not computed), else `None`.
+fn constant_within(index: &GroupIndex, rows: &[usize], w: &[f64]) -> Option<Vec<f64>> {
+    let mut first = vec![f64::NAN; index.n_groups()];
+    let mut order = Vec::new();
+    for (&r, &v) in rows.iter().zip(w) {
+        let c = index.codes[r] as usize;
+        let slot = first.get_mut(c)?;
+        if slot.is_nan() {
+            *slot = v;
+            order.push(c);
+        } else if *slot != v {
+            return None;
+        }
+    }
+    let per_group: Vec<f64> = order.iter().map(|&c| first[c]).collect();
+    (per_group.len() < rows.len()).then_some(per_group)
+}
