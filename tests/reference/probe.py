@@ -5,7 +5,8 @@ Lind-Mehlum U test and average marginal effects.
 Writes, beside this file:
   probe_ols.csv    invented cross-section, 300 rows in 30 groups `g`, with a
                    group-level moderator `wb` and a positive `s` for a log term;
-  probe_curve.csv  invented cross-section, 400 rows in 40 groups, curvilinear outcomes;
+  probe_curve.csv  invented cross-section, 400 rows in 40 groups, curvilinear outcomes
+                   (and `ylin`, exactly linear in x, for the bad-input tests);
   probe_panel.csv  invented panel of 40 units over 8 periods with unit effects;
   probe.json       the cases: the model text, the statement, and the expected values.
 Run: python3 tests/reference/probe.py
@@ -95,6 +96,8 @@ def data_curve():
         2 + 1.2 * x - 0.1 * x**2 + 0.5 * w + 0.1 * x * w - 0.012 * x**2 * w + e(1.0)
     ).round(4)
     df["yflat"] = (1 + 0.01 * x - 0.001 * x**2 + e(4.0)).round(4)
+    # Exactly linear in x (no noise): the fitted square is rounding noise (bad-input test).
+    df["ylin"] = (1 + 2 * x).round(3)
     return df
 
 
