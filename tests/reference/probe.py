@@ -28,6 +28,8 @@ How expected values are computed:
     default) over the estimation rows, or over one value per group of `g` when the
     moderator is constant within `g` and the model clusters by `g`.
   * Johnson-Neyman: roots of (A + C w)^2 = t^2 (Vaa + 2w Vac + w^2 Vcc) by numpy.roots.
+  * Figure lines: statsmodels `get_prediction(...).summary_frame()` (mean and its
+    interval) at the ends of the observed range of x.
   * Turning point x* = -A/G, delta SE from the gradient -(alpha + x* gamma)/G; Fieller
     set {x : (A + G x)^2 <= t^2 Var(A + G x)} by numpy.roots; end slopes at min and max
     of x; U test t = min of the end-slope t values in the direction of the shape,
@@ -404,6 +406,36 @@ def panel_cases(df, data):
     ]
 
 
+def plot_lines(df, data):
+    """Fitted outcome with its band of the mean from statsmodels `get_prediction`, at the
+    ends of the observed range of x, w at -1sd and +1sd, z at its mean."""
+    x, w, z = (df[c].to_numpy() for c in ["x", "w", "z"])
+    X = sm.add_constant(np.column_stack([x, w, x * w, z]))
+    r = sm.OLS(df["y"].to_numpy(float), X).fit()
+    series = []
+    for label, val in at_values(w, ["-1sd", "+1sd"]):
+        pts = []
+        for xv in (float(x.min()), float(x.max())):
+            ex = np.array([[1.0, xv, val, xv * val, float(np.mean(z))]])
+            fr = r.get_prediction(ex).summary_frame(alpha=1 - LEVEL)
+            pts.append(
+                {
+                    "x": xv,
+                    "y": float(fr["mean"].iloc[0]),
+                    "low": float(fr["mean_ci_lower"].iloc[0]),
+                    "high": float(fr["mean_ci_upper"].iloc[0]),
+                }
+            )
+        series.append({"label": label, "value": val, "ends": pts})
+    return {
+        "name": "plot_lines_prediction_band",
+        "kind": "plot",
+        "text": model_text(data, "y", ["x", "w", "x * w", "z"], "classical")
+        + 'plot m: x across w at -1sd, +1sd to "probe_lines.svg"\n',
+        "expected": {"series": series, "held_at": [["z", float(np.mean(z))]]},
+    }
+
+
 def main():
     a, c, p = data_ols(), data_curve(), data_panel()
     a.to_csv(os.path.join(HERE, "probe_ols.csv"), index=False)
@@ -430,6 +462,7 @@ def main():
         turning_moderated("turning_across_w", c, "probe_curve.csv"),
         *effect_log(a, "probe_ols.csv"),
         *panel_cases(p, "probe_panel.csv"),
+        plot_lines(a, "probe_ols.csv"),
     ]
     doc = {
         "generator": "tests/reference/probe.py",

@@ -204,6 +204,24 @@ fn every_probe_case_matches_to_1e8() {
                     assert_eq!(g.inside_data, inside, "{name} {l}");
                 }
             }
+            (Output::Plot(p), "plot") => {
+                let engine::probe::PlotKind::Lines { series } = &p.kind else {
+                    panic!("{name}: not lines: {:?}", p.kind)
+                };
+                let want_series = want["series"].as_array().unwrap();
+                assert_eq!(series.len(), want_series.len(), "{name}");
+                for (s, ws) in series.iter().zip(want_series) {
+                    assert_eq!(s.points.len(), 50, "{name}");
+                    let ends = [s.points[0], s.points[49]];
+                    for (g, w) in ends.iter().zip(ws["ends"].as_array().unwrap()) {
+                        c.close("x", g.x, num(&w["x"]));
+                        c.close("fitted", g.y, num(&w["y"]));
+                        c.close("band low", g.low, num(&w["low"]));
+                        c.close("band high", g.high, num(&w["high"]));
+                    }
+                }
+                assert_eq!(p.rug.len(), 300, "{name}: one rug mark per row");
+            }
             (Output::Effect(e), "effect") => c.estimate("effect", &e.effect, &want["effect"]),
             (other, kind) => panic!("{name}: asked for {kind}, got {other:?}"),
         }
