@@ -4,8 +4,6 @@
 //! zero, the log of zero) is missing too. Each operation is one pass over whole
 //! columns, with no allocation per row.
 
-use std::cell::RefCell;
-use std::collections::HashMap;
 use std::sync::Arc;
 
 use frame::{ColumnData, Frame, GroupIndex, MISSING_CODE};
@@ -145,7 +143,6 @@ impl PanelIndex {
 pub struct Evaluator<'a> {
     pub frame: &'a Frame,
     panel: Option<&'a PanelIndex>,
-    groups: RefCell<HashMap<usize, Arc<GroupIndex>>>,
     /// When set, group means (`within`, `between`) and sample statistics
     /// (`center`, `z`) are taken over these rows only: the estimation sample.
     sample: Option<&'a [bool]>,
@@ -156,7 +153,6 @@ impl<'a> Evaluator<'a> {
         Evaluator {
             frame,
             panel,
-            groups: RefCell::new(HashMap::new()),
             sample: None,
         }
     }
@@ -193,11 +189,7 @@ impl<'a> Evaluator<'a> {
 
     /// The group index of a column, built once.
     pub fn group(&self, column: usize) -> Arc<GroupIndex> {
-        self.groups
-            .borrow_mut()
-            .entry(column)
-            .or_insert_with(|| Arc::new(GroupIndex::from_column(&self.frame.columns()[column])))
-            .clone()
+        self.frame.group_index(column)
     }
 
     pub fn eval(&self, value: &Value) -> Evaluated {

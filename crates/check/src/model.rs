@@ -648,7 +648,6 @@ impl Ctx<'_> {
                 empty.push((label.clone(), *span));
             }
         }
-        drop(ev);
         for (label, span) in &empty {
             let msg = format!(
                 "`{label}` is missing in every row{} of the data, so model `{}` cannot use it",

@@ -52,41 +52,54 @@ pub fn build(
         .as_ref()
         .ok_or_else(|| err("the model has no outcome".into()))?;
 
-    // Each grouping column is indexed once, however often it is used.
-    let mut indexes: std::collections::HashMap<usize, frame::GroupIndex> =
-        std::collections::HashMap::new();
+    // Group indexes are built once per frame (shared with the checker).
+    let codes_over = |column: usize, rows: &[usize]| codes_over(&frame.group_index(column), rows);
+
+    // Codes of each grouping column over the sample, computed once and reused
+    // for a column that is both a fixed and a cluster grouping.
+    let mut rows: Vec<usize> = (0..sample.len()).filter(|&r| sample[r]).collect();
+    let mut group_columns: Vec<usize> = Vec::new();
     for g in model.fixed.iter().chain(&model.cluster) {
-        indexes
-            .entry(g.column)
-            .or_insert_with(|| frame::GroupIndex::from_column(&frame.columns()[g.column]));
+        if !group_columns.contains(&g.column) {
+            group_columns.push(g.column);
+        }
     }
-    let codes_over = |column: usize, rows: &[usize]| codes_over(&indexes[&column], rows);
+    let mut codes: Vec<GroupCodes> = group_columns
+        .iter()
+        .map(|&c| codes_over(c, &rows))
+        .collect();
+    let position = |column: usize| group_columns.iter().position(|&c| c == column);
 
     // Singletons first: they change the sample, and with it every group mean.
     let mut singletons = 0;
     if !model.fixed.is_empty() {
-        let rows: Vec<usize> = (0..sample.len()).filter(|&r| sample[r]).collect();
-        let codes: Vec<GroupCodes> = model
+        let fixed_codes: Vec<GroupCodes> = model
             .fixed
             .iter()
-            .map(|g| codes_over(g.column, &rows))
+            .filter_map(|g| position(g.column).map(|i| codes[i].clone()))
             .collect();
-        let (keep, dropped) = singleton_rows(&codes);
+        let (keep, dropped) = singleton_rows(&fixed_codes);
         singletons = dropped;
-        for (r, k) in rows.iter().zip(&keep) {
-            if !k {
-                sample[*r] = false;
+        if dropped > 0 {
+            for (r, k) in rows.iter().zip(&keep) {
+                if !k {
+                    sample[*r] = false;
+                }
             }
+            rows = rows
+                .iter()
+                .zip(&keep)
+                .filter(|(_, &k)| k)
+                .map(|(&r, _)| r)
+                .collect();
+            codes = codes.iter().map(|c| c.subset(&keep)).collect();
         }
     }
-    let rows: Vec<usize> = (0..sample.len()).filter(|&r| sample[r]).collect();
     if rows.is_empty() {
         return Err(err("no rows are left to estimate from".into()));
     }
     let ev = Evaluator::with_sample(frame, panel, &sample);
-    let gather = |v: &[f64]| -> Vec<f64> { rows.iter().map(|&r| v[r]).collect() };
-
-    let y = gather(&ev.numbers(&outcome.value));
+    let y = over_rows(&ev, frame, &outcome.value, &rows);
     let intercept = model.fixed.is_empty();
     let mut columns = Vec::new();
     let mut labels = Vec::new();
@@ -97,7 +110,7 @@ pub fn build(
         term_of.push(None);
     }
     for (ti, term) in model.terms.iter().enumerate() {
-        for (label, col) in expand_term(&ev, term, &rows) {
+        for (label, col) in expand_term(&ev, frame, term, &rows) {
             columns.push(col);
             labels.push(label);
             term_of.push(Some(ti));
@@ -116,16 +129,12 @@ pub fn build(
             "`{what}` has values that are not finite numbers in the estimation sample"
         )));
     }
-    let fixed = model
-        .fixed
-        .iter()
-        .map(|g| (g.name.clone(), codes_over(g.column, &rows)))
-        .collect();
-    let clusters = model
-        .cluster
-        .iter()
-        .map(|g| (g.name.clone(), codes_over(g.column, &rows)))
-        .collect();
+    let coded = |g: &check::Grouping| {
+        let i = position(g.column).expect("every grouping column was coded");
+        (g.name.clone(), codes[i].clone())
+    };
+    let fixed = model.fixed.iter().map(coded).collect();
+    let clusters = model.cluster.iter().map(coded).collect();
     Ok(Design {
         rows,
         y,
@@ -153,6 +162,19 @@ fn codes_over(index: &frame::GroupIndex, rows: &[usize]) -> GroupCodes {
     GroupCodes::from_ids(&ids)
 }
 
+/// The numeric values of `value` on the sample rows. A plain numeric column is
+/// read straight from the frame; anything else is evaluated (with the sample's
+/// group means, centering and scaling) and then gathered.
+fn over_rows(ev: &Evaluator<'_>, frame: &Frame, value: &Value, rows: &[usize]) -> Vec<f64> {
+    if let Value::Column(c) = value {
+        if let frame::ColumnData::Numeric(col) = &frame.columns()[*c].data {
+            return rows.iter().map(|&r| col.values[r]).collect();
+        }
+    }
+    let all = ev.numbers(value);
+    rows.iter().map(|&r| all[r]).collect()
+}
+
 /// One part of a term while it is multiplied out: its label pieces and values.
 struct Piece {
     labels: Vec<String>,
@@ -161,14 +183,21 @@ struct Piece {
 
 /// The columns of one term: one for a product of numbers, one per
 /// non-reference level (or combination of levels) for categorical factors.
-fn expand_term(ev: &Evaluator<'_>, term: &ResolvedTerm, rows: &[usize]) -> Vec<(String, Vec<f64>)> {
+fn expand_term(
+    ev: &Evaluator<'_>,
+    frame: &Frame,
+    term: &ResolvedTerm,
+    rows: &[usize],
+) -> Vec<(String, Vec<f64>)> {
     let mut pieces = vec![Piece {
         labels: Vec::new(),
         values: vec![1.0; rows.len()],
     }];
     for f in &term.factors {
-        match ev.eval(&f.value) {
-            Evaluated::Codes { codes, levels } => {
+        // Only categorical factors need their codes; numbers are read over the sample rows.
+        let coded = (f.ty == check::Ty::Categorical).then(|| ev.eval(&f.value));
+        match coded {
+            Some(Evaluated::Codes { codes, levels }) => {
                 let reference = match &f.value {
                     Value::Categorical {
                         reference: Some(r), ..
@@ -196,16 +225,17 @@ fn expand_term(ev: &Evaluator<'_>, term: &ResolvedTerm, rows: &[usize]) -> Vec<(
                 }
                 pieces = next;
             }
-            other => {
-                let x = other.into_numbers(ev.n());
+            _ => {
+                let x = over_rows(ev, frame, &f.value, rows);
                 let label = if f.power > 1 {
                     format!("{}^{}", f.label, f.power)
                 } else {
                     f.label.clone()
                 };
+                let power = f.power as i32;
                 for p in pieces.iter_mut() {
-                    for (v, &r) in p.values.iter_mut().zip(rows) {
-                        *v *= x[r].powi(f.power as i32);
+                    for (v, xi) in p.values.iter_mut().zip(&x) {
+                        *v *= if power == 1 { *xi } else { xi.powi(power) };
                     }
                     p.labels.push(label.clone());
                 }

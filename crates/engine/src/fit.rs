@@ -111,6 +111,9 @@ pub struct ModelFit {
     /// Sentences for the notes under the table: dropped terms, corrections made.
     pub notes: Vec<String>,
     pub design: Design,
+    /// Wall-clock seconds of each stage (`design`, `within`, `least squares`,
+    /// `covariance`), for benchmarks; not part of any report.
+    pub timings: Vec<(&'static str, f64)>,
 }
 
 /// Fit a checked model of kind `ols` or `within`.
@@ -134,8 +137,12 @@ pub fn fit(
             "mixed models (with `vary`) cannot be estimated by this version yet; models with `fixed` or neither can".into(),
         ));
     }
+    let started = std::time::Instant::now();
     let design = build(model, frame, panel)?;
-    estimate(model, design, options)
+    let design_secs = started.elapsed().as_secs_f64();
+    let mut fit = estimate(model, design, options)?;
+    fit.timings.insert(0, ("design", design_secs));
+    Ok(fit)
 }
 
 /// Estimate a model from a design already built on its sample (pre-transform
@@ -152,6 +159,12 @@ pub fn estimate(
         message,
     };
     let n = design.rows.len();
+    let mut timings = Vec::new();
+    let mut stage = std::time::Instant::now();
+    let mut lap = |name: &'static str, timings: &mut Vec<(&'static str, f64)>| {
+        timings.push((name, stage.elapsed().as_secs_f64()));
+        stage = std::time::Instant::now();
+    };
     let y_raw = design.y.clone();
     let mut notes = Vec::new();
 
@@ -206,8 +219,10 @@ pub fn estimate(
     if k_all == 0 {
         return Err(err("the model has no terms to estimate".into()));
     }
+    lap("within", &mut timings);
     let x = Mat::from_fn(n, k_all, |i, j| design.columns[j][i]);
     let solved = ols(x.as_ref(), &design.y);
+    lap("least squares", &mut timings);
 
     // Aliased columns now mean a genuine collinearity among the terms: an error naming them.
     if let Some(&j) = solved.aliased.first() {
@@ -292,6 +307,7 @@ pub fn estimate(
         }
     };
 
+    lap("covariance", &mut timings);
     let t_dist = StudentsT::new(0.0, 1.0, df_inference)
         .map_err(|e| err(format!("invalid t distribution: {e}")))?;
     let q = t_dist.inverse_cdf(0.5 + options.level / 2.0);
@@ -377,6 +393,7 @@ pub fn estimate(
         },
         notes,
         design,
+        timings,
     })
 }
 

@@ -86,6 +86,21 @@ pub struct Frame {
     /// either holds a single pair, so the map costs nothing per row. Empty for
     /// frames not read from a file, which then count lines as `row + 2`.
     line_breaks: Vec<(usize, usize)>,
+    /// Group index of each column, built on first use: the checker and the
+    /// engine ask for the same groupings, and hashing millions of ids twice
+    /// is the largest cost of preparing a fixed-effects model.
+    group_indexes: GroupCache,
+}
+
+/// One lazily built [`GroupIndex`] per column. Cloning a frame clones the
+/// indexes built so far (they are shared, not copied).
+#[derive(Clone, Debug, Default)]
+pub(crate) struct GroupCache(Vec<std::sync::OnceLock<std::sync::Arc<GroupIndex>>>);
+
+impl GroupCache {
+    pub(crate) fn new(n_columns: usize) -> GroupCache {
+        GroupCache((0..n_columns).map(|_| std::sync::OnceLock::new()).collect())
+    }
 }
 
 #[derive(Clone, Debug)]
@@ -276,6 +291,13 @@ impl Frame {
     pub fn column_index(&self, name: &str) -> Option<usize> {
         self.columns.iter().position(|c| c.name == name)
     }
+    /// The group index of column `column`, built once per frame and shared.
+    /// Panics if `column` is out of range, like indexing [`Frame::columns`].
+    pub fn group_index(&self, column: usize) -> std::sync::Arc<GroupIndex> {
+        self.group_indexes.0[column]
+            .get_or_init(|| std::sync::Arc::new(GroupIndex::from_column(&self.columns[column])))
+            .clone()
+    }
     /// Column names in file order.
     pub fn names(&self) -> impl Iterator<Item = &str> {
         self.columns.iter().map(|c| c.name.as_str())
@@ -312,6 +334,7 @@ impl Frame {
             ));
         }
         Ok(Frame {
+            group_indexes: GroupCache::new(columns.len()),
             columns,
             n_rows,
             line_breaks: Vec::new(),

@@ -14,8 +14,8 @@ use crate::field::{texts_of_column, ChunkBuilder, Missing, TextBuf};
 use crate::hash::FastMap;
 use crate::tokenize::{tokenize, tokenize_quoted, End, Sink, TokError};
 use crate::{
-    CategoricalColumn, Column, ColumnData, Frame, NumericColumn, ReadError, ReadOptions,
-    TextInNumbers, MISSING_CODE,
+    CategoricalColumn, Column, ColumnData, Frame, GroupCache, NumericColumn, ReadError,
+    ReadOptions, TextInNumbers, MISSING_CODE,
 };
 use memchr::{memchr, memchr2, memchr_iter};
 use rayon::prelude::*;
@@ -465,6 +465,7 @@ fn merge(
         .collect();
     line_breaks.shrink_to_fit();
     Frame {
+        group_indexes: GroupCache::new(columns.len()),
         columns,
         n_rows,
         line_breaks,

@@ -190,6 +190,12 @@ fn measure(
             (peak - base_rss).max(0.0),
             (peak - base_rss).max(0.0) / numeric_mb
         );
+        let stages: Vec<String> = fit
+            .timings
+            .iter()
+            .map(|(name, secs)| format!("{name} {secs:.3} s"))
+            .collect();
+        let _ = writeln!(out, "  stages: {}", stages.join(", "));
         let coef: Vec<String> = fit
             .coefficients
             .iter()

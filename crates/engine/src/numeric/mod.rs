@@ -6,9 +6,10 @@
 //!
 //! Module map: `groups` (group codes, nesting, redundant levels),
 //! `singletons` (iterated singleton removal), `demean` (the within transform),
-//! `ols` (least squares by QR), `vcov` (classical, HC1, HC3, cluster-robust),
+//! `blocks` (row-block kernels: tall QR, cross-products), `ols` (least squares by QR), `vcov` (classical, HC1, HC3, cluster-robust),
 //! `error` (the error type of the checked entry points).
 
+mod blocks;
 mod demean;
 mod error;
 mod groups;

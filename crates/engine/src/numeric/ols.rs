@@ -2,6 +2,7 @@
 
 use faer::{Mat, MatRef};
 
+use super::blocks;
 use super::NumericError;
 
 /// A least-squares solution by column-pivoted QR.
@@ -51,7 +52,7 @@ pub fn ols(x: MatRef<'_, f64>, y: &[f64]) -> Ols {
 /// Algorithm:
 /// 1. Scale every column of X (and y) to unit Euclidean length, so the rank
 ///    decision does not depend on units; an all-zero column is aliased at once.
-/// 2. Householder QR of `[X y]` (one pass over the data): `R₀` is a small
+/// 2. Householder QR of `[X y]` by blocks of rows ([`blocks::tall_r`], one pass over the data): `R₀` is a small
 ///    `(k+1)`-column triangle with the same inner products as `[X y]`, so every
 ///    later step works on it alone.
 /// 3. Rank `r` = the number of diagonal entries of the column-pivoted QR of
@@ -76,26 +77,19 @@ pub fn try_ols(x: MatRef<'_, f64>, y: &[f64]) -> Result<Ols, NumericError> {
             y.len()
         )));
     }
-    if y.iter().any(|v| !v.is_finite()) {
+    let y_scale = norm2(y);
+    if !y_scale.is_finite() {
         return Err(NumericError::NonFinite("the outcome".into()));
     }
     let mut scale = vec![0.0; k];
     for (j, s) in scale.iter_mut().enumerate() {
-        let col = x.col(j);
-        if col.iter().any(|v| !v.is_finite()) {
+        *s = norm2(&blocks::column(x, j));
+        if !s.is_finite() {
             return Err(NumericError::NonFinite(format!("column {j} of X")));
         }
-        *s = norm2((0..n).map(|i| col[i]));
     }
     let nonzero: Vec<usize> = (0..k).filter(|&j| scale[j] > 0.0).collect();
-    let y_scale = {
-        let s = norm2(y.iter().copied());
-        if s > 0.0 {
-            s
-        } else {
-            1.0
-        }
-    };
+    let y_scale = if y_scale > 0.0 { y_scale } else { 1.0 };
 
     let (kept, small) = if n == 0 || nonzero.is_empty() {
         (Vec::new(), Mat::zeros(0, 0))
@@ -135,12 +129,10 @@ pub fn try_ols(x: MatRef<'_, f64>, y: &[f64]) -> Result<Ols, NumericError> {
                 xtx_inv[(b, a)] = v;
             }
         }
-        for &j in &kept {
-            let b = coef[j];
-            for (e, xv) in residuals.iter_mut().zip(x.col(j).iter()) {
-                *e -= b * xv;
-            }
-        }
+        let kept_columns: Vec<std::borrow::Cow<'_, [f64]>> =
+            kept.iter().map(|&j| blocks::column(x, j)).collect();
+        let kept_coef: Vec<f64> = kept.iter().map(|&j| coef[j]).collect();
+        blocks::subtract_fitted(&mut residuals, &kept_columns, &kept_coef);
     }
     let rss = residuals.iter().map(|e| e * e).sum();
     let aliased = (0..k).filter(|j| !kept.contains(j)).collect();
@@ -165,14 +157,13 @@ fn choose_columns(
 ) -> (Vec<usize>, Mat<f64>) {
     let (n, k) = (x.nrows(), x.ncols());
     let q = nonzero.len();
-    let m = Mat::from_fn(n, q + 1, |i, j| {
-        if j < q {
-            x[(i, nonzero[j])] / scale[nonzero[j]]
-        } else {
-            y[i] / y_scale
-        }
-    });
-    let r0 = tall_r(m.as_ref());
+    let owned: Vec<std::borrow::Cow<'_, [f64]>> =
+        nonzero.iter().map(|&j| blocks::column(x, j)).collect();
+    let mut columns: Vec<&[f64]> = owned.iter().map(|c| c.as_ref()).collect();
+    columns.push(y);
+    let mut scales: Vec<f64> = nonzero.iter().map(|&j| scale[j]).collect();
+    scales.push(y_scale);
+    let r0 = blocks::tall_r(&columns, &scales);
     let rows = r0.nrows();
     let a = Mat::from_fn(rows, q, |i, j| if i <= j { r0[(i, j)] } else { 0.0 });
     let tol = rank_tolerance(n, k);
@@ -204,7 +195,7 @@ fn choose_columns(
                 }
             }
         }
-        let d = norm2(v.iter().copied());
+        let d = norm2(&v);
         if d > threshold {
             v.iter_mut().for_each(|vi| *vi /= d);
             basis.push(v);
@@ -246,46 +237,25 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| x * y).sum()
 }
 
-/// Euclidean length without overflow or underflow for extreme values.
-fn norm2(values: impl Iterator<Item = f64> + Clone) -> f64 {
-    let big = values.clone().fold(0.0f64, |m, v| m.max(v.abs()));
-    if big == 0.0 || !big.is_finite() {
-        return big;
+/// Euclidean length without overflow or underflow for extreme values; NaN or
+/// infinite when a value is. One pass for ordinary data (the plain sum of
+/// squares is exact enough when it neither overflows nor underflows); a
+/// second, scaled pass otherwise.
+fn norm2(values: &[f64]) -> f64 {
+    let ss: f64 = values.iter().map(|v| v * v).sum();
+    if ss.is_finite() && ss > 1e-280 {
+        return ss.sqrt();
     }
-    big * values.map(|v| (v / big) * (v / big)).sum::<f64>().sqrt()
-}
-
-/// Rows per block of the tall QR: a block of a few columns stays in cache.
-const QR_BLOCK: usize = 1 << 16;
-
-/// The R factor of a tall, narrow matrix by blocks (a "tall-skinny" QR): the
-/// R of each block of rows in parallel, then the R of those stacked. The result
-/// equals the R of one QR of the whole matrix up to the signs of its rows,
-/// which neither the solution nor (X'X)⁻¹ = R⁻¹R⁻ᵀ depends on.
-fn tall_r(m: MatRef<'_, f64>) -> Mat<f64> {
-    use rayon::prelude::*;
-    let (n, c) = (m.nrows(), m.ncols());
-    if n <= 4 * QR_BLOCK {
-        return m.qr().thin_R().to_owned();
+    if values.iter().any(|v| !v.is_finite()) {
+        return f64::NAN;
     }
-    let starts: Vec<usize> = (0..n).step_by(QR_BLOCK).collect();
-    let parts: Vec<Mat<f64>> = starts
-        .par_iter()
-        .map(|&s| {
-            let len = QR_BLOCK.min(n - s);
-            m.subrows(s, len).qr().thin_R().to_owned()
-        })
-        .collect();
-    let total: usize = parts.iter().map(|p| p.nrows()).sum();
-    let mut stacked = Mat::<f64>::zeros(total, c);
-    let mut row = 0;
-    for p in &parts {
-        for i in 0..p.nrows() {
-            for j in 0..c {
-                stacked[(row + i, j)] = p[(i, j)];
-            }
-        }
-        row += p.nrows();
+    let big = values.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    if big == 0.0 {
+        return 0.0;
     }
-    stacked.qr().thin_R().to_owned()
+    big * values
+        .iter()
+        .map(|v| (v / big) * (v / big))
+        .sum::<f64>()
+        .sqrt()
 }

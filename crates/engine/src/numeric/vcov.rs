@@ -4,11 +4,12 @@
 //! Every matrix returned is over the kept columns, in the order of
 //! [`Ols::kept`]; [`expand_vcov`] spreads one over all columns with NaN for
 //! aliased ones. The sandwich `V·M·V` uses `V = (X'X)⁻¹` from the fit
-//! (computed from R) and a meat `M` formed as `S'S` from a scaled copy `S` of
-//! the kept columns, so no per-row allocation.
+//! (computed from R) and a meat `M` summed by blocks of rows with no copy of
+//! the data and no per-row allocation ([`blocks`]).
 
 use faer::{Mat, MatRef, Side};
 
+use super::blocks;
 use super::{GroupCodes, NumericError, Ols};
 
 /// Threshold of HC3: a leverage `h ≥ 1 − LEVERAGE_ONE` counts as one.
@@ -41,11 +42,6 @@ fn check_shapes(x: MatRef<'_, f64>, fit: &Ols) -> Result<(), NumericError> {
     Ok(())
 }
 
-/// The kept columns of X with row `i` multiplied by `w[i]`.
-fn weighted_kept(x: MatRef<'_, f64>, fit: &Ols, w: &[f64]) -> Mat<f64> {
-    Mat::from_fn(x.nrows(), fit.kept.len(), |i, j| x[(i, fit.kept[j])] * w[i])
-}
-
 /// `V·M·V·c` with `V = (X'X)⁻¹`, symmetrized.
 fn sandwich(fit: &Ols, meat: &Mat<f64>, c: f64) -> Mat<f64> {
     let v = &fit.xtx_inv;
@@ -75,24 +71,14 @@ pub fn vcov_hc1(x: MatRef<'_, f64>, fit: &Ols, dof_k: f64) -> Mat<f64> {
     if check_shapes(x, fit).is_err() || (n - dof_k).is_nan() || n - dof_k <= 0.0 {
         return nan_matrix(p);
     }
-    let s = weighted_kept(x, fit, &fit.residuals);
-    let meat = s.transpose() * &s;
+    let meat = blocks::weighted_cross(x, &fit.kept, &fit.residuals);
     sandwich(fit, &meat, n / (n - dof_k))
 }
 
-/// Leverages `h_i = x_i'(X'X)⁻¹x_i` over the kept columns: `W = X_K·V`, then
-/// `h_i = Σ_j W_ij X_ij` (one matrix product, no per-row allocation).
+/// Leverages `h_i = x_i'(X'X)⁻¹x_i` over the kept columns, summed by blocks of rows ([`blocks::quadratic_forms`], no `n×p` temporary).
 pub fn leverages(x: MatRef<'_, f64>, fit: &Ols) -> Result<Vec<f64>, NumericError> {
     check_shapes(x, fit)?;
-    let xk = Mat::from_fn(x.nrows(), fit.kept.len(), |i, j| x[(i, fit.kept[j])]);
-    let w = &xk * &fit.xtx_inv;
-    let mut h = vec![0.0; x.nrows()];
-    for j in 0..fit.kept.len() {
-        for (i, hi) in h.iter_mut().enumerate() {
-            *hi += w[(i, j)] * xk[(i, j)];
-        }
-    }
-    Ok(h)
+    Ok(blocks::quadratic_forms(x, &fit.kept, fit.xtx_inv.as_ref()))
 }
 
 /// HC3: (X'X)⁻¹ X' diag(e²/(1−h)²) X (X'X)⁻¹; `extra_leverage` adds to each
@@ -134,8 +120,7 @@ pub fn vcov_hc3_checked(
         }
         *wi = fit.residuals[i] / (1.0 - hi);
     }
-    let s = weighted_kept(x, fit, &w);
-    let meat = s.transpose() * &s;
+    let meat = blocks::weighted_cross(x, &fit.kept, &w);
     Ok(sandwich(fit, &meat, 1.0))
 }
 
@@ -226,15 +211,23 @@ fn scaled(v: &Mat<f64>, f: f64) -> Mat<f64> {
 fn one_way(x: MatRef<'_, f64>, fit: &Ols, g: &GroupCodes) -> (Mat<f64>, usize) {
     let p = fit.kept.len();
     let ng = g.n_groups();
-    // Score sums, row-major G×p.
+    // One row per cluster (as the intersection of unit and period usually is):
+    // the score sums are the rows' own scores, so the meat is Σ e²xxᵀ.
+    if ng == x.nrows() && g.counts.iter().all(|&c| c == 1) {
+        let meat = blocks::weighted_cross(x, &fit.kept, &fit.residuals);
+        return (sandwich(fit, &meat, 1.0), ng);
+    }
+    // Score sums, row-major G×p, in one pass over the rows.
+    let columns: Vec<std::borrow::Cow<'_, [f64]>> =
+        fit.kept.iter().map(|&j| blocks::column(x, j)).collect();
     let mut u = vec![0.0; ng * p];
-    for (a, &col) in fit.kept.iter().enumerate() {
-        for ((xv, e), &c) in x.col(col).iter().zip(&fit.residuals).zip(&g.codes) {
-            u[c as usize * p + a] += xv * e;
+    for (i, (&c, e)) in g.codes.iter().zip(&fit.residuals).enumerate() {
+        let row = &mut u[c as usize * p..(c as usize + 1) * p];
+        for (slot, col) in row.iter_mut().zip(&columns) {
+            *slot += col[i] * e;
         }
     }
-    let um = Mat::from_fn(ng, p, |r, a| u[r * p + a]);
-    let meat = um.transpose() * &um;
+    let meat = blocks::grouped_cross(&u, p);
     (sandwich(fit, &meat, 1.0), g.n_nonempty())
 }
 
