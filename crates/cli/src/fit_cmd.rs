@@ -1,8 +1,11 @@
-//! `slopewise fit FILE`: check, estimate every model, run the comparisons, report.
+//! `slopewise fit FILE`: check, estimate every model, run the comparisons and
+//! the probing statements, write the figures, report.
 
-use std::path::Path;
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
 
 use check::{FileLoader, RequestKind, Severity};
+use engine::probe::{Output, ProbeOptions};
 use engine::{FitOptions, ModelFit};
 use report::{DiagnosticLine, Results};
 use syntax::LineIndex;
@@ -46,6 +49,7 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
             let doc = report::document(&Results {
                 fits: &[],
                 comparisons: &[],
+                probing: &[],
                 diagnostics: &lines,
             });
             println!(
@@ -104,27 +108,72 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
             }
         }
     }
-    let pending: Vec<&str> = checked
-        .requests
-        .iter()
-        .map(|r| match r.kind {
-            RequestKind::Probe => "probe",
-            RequestKind::Regions => "regions",
-            RequestKind::Turning => "turning",
-            RequestKind::Effect => "effect",
-            RequestKind::Plot => "plot",
-        })
-        .collect();
-    if !pending.is_empty() && format != ReportFormat::Json {
-        eprintln!(
-            "{name}: {} probing statement(s) ({}) were checked; computing them is not part of this version yet",
-            pending.len(),
-            dedup(&pending).join(", ")
+    let mut probing: Vec<Output> = Vec::new();
+    for r in &checked.requests {
+        let Some(k) = fit_of[r.model] else {
+            let model = &checked.models[r.model].name;
+            lines.push(statement_note(
+                &name,
+                &text,
+                &index,
+                r.span.start,
+                &format!(
+                    "`{}` was not computed because model `{model}` was not estimated",
+                    kind_word(r.kind)
+                ),
+            ));
+            continue;
+        };
+        let progress = progress_bar(r, format);
+        let tick = || {
+            if let Some(p) = &progress {
+                p.inc(1);
+            }
+        };
+        let probe_options = ProbeOptions {
+            level: options.level,
+            on_draw: Some(&tick),
+            fit: options.clone(),
+        };
+        let result = engine::probe::run(
+            r,
+            &checked.models[r.model],
+            &fits[k],
+            &frame,
+            checked.panel_index.as_ref(),
+            &probe_options,
         );
+        if let Some(p) = progress {
+            p.finish_and_clear();
+        }
+        match result {
+            Ok(Output::Plot(mut plot)) => {
+                plot.path = figure_path(&plot.path, &base, out);
+                match write_figure(&plot) {
+                    Ok(()) => probing.push(Output::Plot(plot)),
+                    Err(message) => {
+                        all_ok = false;
+                        lines.push(statement_error(
+                            &name,
+                            &text,
+                            &index,
+                            r.span.start,
+                            &message,
+                        ));
+                    }
+                }
+            }
+            Ok(o) => probing.push(o),
+            Err(e) => {
+                all_ok = false;
+                lines.push(estimation_error(&name, &text, &index, r.span.start, &e));
+            }
+        }
     }
     let results = Results {
         fits: &fits,
         comparisons: &comparisons,
+        probing: &probing,
         diagnostics: &lines,
     };
     match format {
@@ -142,7 +191,13 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
         std::fs::create_dir_all(dir)
             .map_err(|e| format!("cannot create folder {}: {e}", dir.display()))?;
         let md = dir.join("report.md");
-        std::fs::write(&md, report::markdown(&results))
+        // Figures in the folder are linked by file name, so the folder can be moved whole.
+        let linked: Vec<Output> = probing.iter().map(|o| relative_to(o, dir)).collect();
+        let in_dir = Results {
+            probing: &linked,
+            ..results
+        };
+        std::fs::write(&md, report::markdown(&in_dir))
             .map_err(|e| format!("cannot write {}: {e}", md.display()))?;
         let js = dir.join("report.json");
         let doc =
@@ -171,12 +226,92 @@ fn estimation_error(
     }
 }
 
-fn dedup<'a>(items: &[&'a str]) -> Vec<&'a str> {
-    let mut out: Vec<&str> = Vec::new();
-    for i in items {
-        if !out.contains(i) {
-            out.push(i);
-        }
+fn kind_word(k: RequestKind) -> &'static str {
+    match k {
+        RequestKind::Probe => "probe",
+        RequestKind::Regions => "regions",
+        RequestKind::Turning => "turning",
+        RequestKind::Effect => "effect",
+        RequestKind::Plot => "plot",
     }
-    out
+}
+
+/// A progress bar for a bootstrap on a terminal in text mode; nothing otherwise.
+fn progress_bar(r: &check::Request, format: ReportFormat) -> Option<indicatif::ProgressBar> {
+    let (draws, _) = r.bootstrap?;
+    if format != ReportFormat::Text || !std::io::stderr().is_terminal() {
+        return None;
+    }
+    let bar = indicatif::ProgressBar::new(u64::from(draws));
+    if let Ok(style) = indicatif::ProgressStyle::with_template(
+        "  bootstrap {bar:30} {pos}/{len} draws, {elapsed} (about {eta} left)",
+    ) {
+        bar.set_style(style);
+    }
+    bar.set_message(kind_word(r.kind));
+    Some(bar)
+}
+
+/// Where a figure goes: as the statement says (resolved against the model
+/// file's folder), except that with `--out DIR` a relative path goes into DIR.
+fn figure_path(resolved: &Path, base: &Path, out: Option<&Path>) -> PathBuf {
+    match (out, resolved.strip_prefix(base)) {
+        (Some(dir), Ok(rel)) => dir.join(rel),
+        _ => resolved.to_path_buf(),
+    }
+}
+
+fn write_figure(plot: &engine::probe::PlotResult) -> Result<(), String> {
+    std::fs::write(&plot.path, report::figure::svg(plot))
+        .map_err(|e| format!("cannot write the figure {}: {e}", plot.path.display()))
+}
+
+/// A plot's path relative to `dir` when it lies inside it.
+fn relative_to(o: &Output, dir: &Path) -> Output {
+    match o {
+        Output::Plot(p) => {
+            let mut p = p.clone();
+            if let Ok(rel) = p.path.strip_prefix(dir) {
+                p.path = rel.to_path_buf();
+            }
+            Output::Plot(p)
+        }
+        other => other.clone(),
+    }
+}
+
+/// Print an error at a statement and keep it for the JSON document.
+fn statement_error(
+    name: &str,
+    text: &str,
+    index: &LineIndex,
+    offset: usize,
+    message: &str,
+) -> DiagnosticLine {
+    let p = index.char_pos(text, offset);
+    eprintln!("{name}:{}:{}: error: {message}", p.line + 1, p.col + 1);
+    DiagnosticLine {
+        severity: "error",
+        message: message.to_string(),
+        line: p.line + 1,
+        column: p.col + 1,
+    }
+}
+
+/// A statement that was skipped, as a warning.
+fn statement_note(
+    name: &str,
+    text: &str,
+    index: &LineIndex,
+    offset: usize,
+    message: &str,
+) -> DiagnosticLine {
+    let p = index.char_pos(text, offset);
+    eprintln!("{name}:{}:{}: warning: {message}", p.line + 1, p.col + 1);
+    DiagnosticLine {
+        severity: "warning",
+        message: message.to_string(),
+        line: p.line + 1,
+        column: p.col + 1,
+    }
 }

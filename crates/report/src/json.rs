@@ -7,7 +7,7 @@ use serde_json::{json, Map, Value};
 use crate::Results;
 
 /// A finite number, or null (JSON has no NaN).
-fn num(x: f64) -> Value {
+pub(crate) fn num(x: f64) -> Value {
     if x.is_finite() {
         json!(x)
     } else {
@@ -16,12 +16,14 @@ fn num(x: f64) -> Value {
 }
 
 pub fn document(results: &Results<'_>) -> Value {
+    let [probes, regions, turning, effects] = crate::json_probe::arrays(results.probing);
     json!({
         "models": results.fits.iter().map(model).collect::<Vec<_>>(),
-        "probes": [],
-        "regions": [],
-        "turning": [],
-        "effects": [],
+        "probes": probes,
+        "regions": regions,
+        "turning": turning,
+        "effects": effects,
+        "figures": crate::json_probe::figures(results.probing),
         "comparisons": results.comparisons.iter().map(|c| json!({
             "models": c.models,
             "statistic": num(c.statistic),

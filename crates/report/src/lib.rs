@@ -3,22 +3,30 @@
 //! Everything here reads the engine's public results; nothing is computed
 //! except formatting.
 
+pub mod figure;
 mod json;
+mod json_probe;
 mod markdown;
+mod markdown_probe;
 mod numbers;
+mod probe_words;
 mod text;
+mod text_probe;
 
 pub use json::document;
 pub use markdown::markdown;
 pub use numbers::{apa_p, number};
 pub use text::text;
 
+pub use engine::probe::Output;
 use engine::{Comparison, ModelFit};
 
 /// What one `slopewise fit` run produced, in file order.
 pub struct Results<'a> {
     pub fits: &'a [ModelFit],
     pub comparisons: &'a [Comparison],
+    /// Probing statements that were computed, in file order.
+    pub probing: &'a [Output],
     /// Diagnostics with 1-based line and column.
     pub diagnostics: &'a [DiagnosticLine],
 }
@@ -30,6 +38,13 @@ pub struct DiagnosticLine {
     pub message: String,
     pub line: usize,
     pub column: usize,
+}
+
+impl Results<'_> {
+    /// The fit a probing result belongs to, for the notes under it.
+    fn fit_named(&self, name: &str) -> Option<&ModelFit> {
+        self.fits.iter().find(|f| f.name == name)
+    }
 }
 
 /// Plain-words name of a model's kind, for titles.

@@ -56,6 +56,9 @@ pub fn markdown(results: &Results<'_>) -> String {
         }
         out.push_str("\n\n");
     }
+    for o in results.probing {
+        out.push_str(&crate::markdown_probe::block(results, o));
+    }
     for c in results.comparisons {
         out.push_str(&format!(
             "Comparison of {}: *F*({}, {}) = {}, *p* {}.\n\n",
@@ -69,7 +72,7 @@ pub fn markdown(results: &Results<'_>) -> String {
     out
 }
 
-fn capitalize(s: &str) -> String {
+pub(crate) fn capitalize(s: &str) -> String {
     let mut c = s.chars();
     match c.next() {
         Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),

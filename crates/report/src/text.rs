@@ -11,6 +11,10 @@ pub fn text(results: &Results<'_>) -> String {
         out.push_str(&model_block(fit));
         out.push('\n');
     }
+    for o in results.probing {
+        out.push_str(&crate::text_probe::block(results, o));
+        out.push('\n');
+    }
     for c in results.comparisons {
         out.push_str(&format!(
             "compare {}: F({}, {}) = {}, p {} (Wald test of {}, with the covariance of `{}`)\n",
