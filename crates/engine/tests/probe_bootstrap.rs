@@ -30,7 +30,16 @@ fn setup(statement: &str) -> (Checked, ModelFit) {
 
 fn probe_once(c: &Checked, f: &ModelFit) -> ProbeResult {
     let frame = &c.data.as_ref().unwrap().frame;
-    match run(&c.requests[0], &c.models[0], f, frame, None, &ProbeOptions::default()).unwrap() {
+    match run(
+        &c.requests[0],
+        &c.models[0],
+        f,
+        frame,
+        None,
+        &ProbeOptions::default(),
+    )
+    .unwrap()
+    {
         Output::Probe(p) => p,
         other => panic!("{other:?}"),
     }
@@ -50,7 +59,8 @@ fn the_same_seed_gives_the_same_intervals_and_another_seed_does_not() {
     assert!(
         a.notes
             .iter()
-            .any(|n| n.starts_with("cluster bootstrap: 200 draws of the 40 groups of `unit` (seed 7)")),
+            .any(|n| n
+                .starts_with("cluster bootstrap: 200 draws of the 40 groups of `unit` (seed 7)")),
         "{:?}",
         a.notes
     );
@@ -77,13 +87,25 @@ fn the_percentile_interval_is_near_the_delta_interval_and_covers_the_truth() {
     // asked to lie within 0.4 delta-method SEs of the delta-method endpoint.
     let (c, f) = setup("probe m: x across w at mean, +1sd bootstrap 1000 seed 2026");
     let p = probe_once(&c, &f);
-    let (xbar, _) = check::mean_sd(&f.design.rows.iter().map(|&r| {
-        c.data.as_ref().unwrap().frame.columns()[2].as_numeric().unwrap().values[r]
-    }).collect::<Vec<_>>());
+    let (xbar, _) = check::mean_sd(
+        &f.design
+            .rows
+            .iter()
+            .map(|&r| {
+                c.data.as_ref().unwrap().frame.columns()[2]
+                    .as_numeric()
+                    .unwrap()
+                    .values[r]
+            })
+            .collect::<Vec<_>>(),
+    );
     for a in &p.at {
         let e = &a.effect;
         let (lo, hi) = e.boot_ci.unwrap();
-        eprintln!("{}: bootstrap ({lo}, {hi}), delta ({}, {}), SE {}", a.label, e.ci_low, e.ci_high, e.std_error);
+        eprintln!(
+            "{}: bootstrap ({lo}, {hi}), delta ({}, {}), SE {}",
+            a.label, e.ci_low, e.ci_high, e.std_error
+        );
         assert!(
             (lo - e.ci_low).abs() < 0.4 * e.std_error && (hi - e.ci_high).abs() < 0.4 * e.std_error,
             "{}: bootstrap ({lo}, {hi}) vs delta ({}, {}), SE {}",
@@ -94,7 +116,11 @@ fn the_percentile_interval_is_near_the_delta_interval_and_covers_the_truth() {
         );
         // True effect of x at (mean x, w): 0.8 − 0.12·x̄ + 0.3·w (the generator's parameters).
         let truth = 0.8 - 0.12 * xbar + 0.3 * a.value;
-        assert!(lo < truth && truth < hi, "{}: truth {truth} outside ({lo}, {hi})", a.label);
+        assert!(
+            lo < truth && truth < hi,
+            "{}: truth {truth} outside ({lo}, {hi})",
+            a.label
+        );
     }
 }
 
@@ -102,9 +128,15 @@ fn the_percentile_interval_is_near_the_delta_interval_and_covers_the_truth() {
 fn bootstrap_regions_agree_with_the_johnson_neyman_bound_in_the_data() {
     let (c, f) = setup("regions m: x across w bootstrap 1000 seed 5");
     let frame = &c.data.as_ref().unwrap().frame;
-    let Output::Regions(r) =
-        run(&c.requests[0], &c.models[0], &f, frame, None, &ProbeOptions::default()).unwrap()
-    else {
+    let Output::Regions(r) = run(
+        &c.requests[0],
+        &c.models[0],
+        &f,
+        frame,
+        None,
+        &ProbeOptions::default(),
+    )
+    .unwrap() else {
         panic!("not regions")
     };
     let stretches = r.boot_significant.clone().unwrap();
@@ -113,9 +145,19 @@ fn bootstrap_regions_agree_with_the_johnson_neyman_bound_in_the_data() {
     // within a tenth of the observed range of w (same sampling argument as above,
     // translated through the slope of the effect in w).
     let span = r.data_max - r.data_min;
-    eprintln!("bounds {:?}, range [{}, {}], bootstrap {stretches:?}", r.bounds, r.data_min, r.data_max);
-    assert!(r.bounds.iter().any(|b| *b > r.data_min && *b < r.data_max), "{r:?}");
-    for b in r.bounds.iter().filter(|b| **b > r.data_min && **b < r.data_max) {
+    eprintln!(
+        "bounds {:?}, range [{}, {}], bootstrap {stretches:?}",
+        r.bounds, r.data_min, r.data_max
+    );
+    assert!(
+        r.bounds.iter().any(|b| *b > r.data_min && *b < r.data_max),
+        "{r:?}"
+    );
+    for b in r
+        .bounds
+        .iter()
+        .filter(|b| **b > r.data_min && **b < r.data_max)
+    {
         let near = stretches
             .iter()
             .any(|(s, e)| (s - b).abs() < 0.1 * span || (e - b).abs() < 0.1 * span);

@@ -26,7 +26,7 @@ pub(crate) fn linear_in_w(
     hi: f64,
 ) -> Result<(Vec<f64>, Vec<f64>), String> {
     let w_name = ctx.moderator.clone().unwrap_or_default();
-    if !(hi > lo) {
+    if hi.is_nan() || lo.is_nan() || hi <= lo {
         return Err(format!("`{w_name}` does not vary in the estimation sample"));
     }
     let (d0, d1) = (ctx.slope(x, lo), ctx.slope(x, hi));

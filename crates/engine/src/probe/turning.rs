@@ -34,7 +34,7 @@ use crate::ModelFit;
 /// The slope's gradient as α + γ·x at moderator value `w`.
 fn linear_in_x(ctx: &Focal, w: f64) -> Result<(Vec<f64>, Vec<f64>), String> {
     let (lo, hi) = ctx.x_range();
-    if !(hi > lo) {
+    if hi.is_nan() || lo.is_nan() || hi <= lo {
         return Err(format!(
             "`{}` does not vary in the estimation sample",
             ctx.focal
