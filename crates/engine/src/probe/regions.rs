@@ -181,3 +181,44 @@ pub(crate) fn regions(
     }
     Ok(r)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn q(a: f64, c: f64, vaa: f64, vac: f64, vcc: f64) -> Inversion {
+        Inversion::new(a, c, vaa, vac, vcc, 2.0)
+    }
+
+    #[test]
+    fn every_case_is_labelled() {
+        // Effect 1 − w with Var = 0.01 (1 + w²)·…: worked by hand with t = 2.
+        // Significant interaction (C² = 1 > 4·0.01): outside two roots.
+        let (b, s) = classify(&q(1.0, -1.0, 0.01, 0.0, 0.01));
+        assert_eq!((b.len(), s), (2, Significant::Outside));
+        // Q = 0.96 w² − 2w + 0.96 has roots 0.96^(−1)·(1 ∓ √(1 − 0.9216)) = 0.7500, 1.3333.
+        assert!(
+            (b[0] - 0.75).abs() < 1e-12 && (b[1] - 4.0 / 3.0).abs() < 1e-12,
+            "{b:?}"
+        );
+        // Weak interaction, strong main effect: inside two roots.
+        let (b, s) = classify(&q(1.0, 0.01, 0.01, 0.0, 0.01));
+        assert_eq!((b.len(), s), (2, Significant::Inside));
+        // Weak everything: nowhere.
+        let (b, s) = classify(&q(0.01, 0.01, 1.0, 0.0, 1.0));
+        assert_eq!((b.len(), s), (0, Significant::Nowhere));
+        // C² = t²Vcc exactly: one bound; Q = 2(AC)w + A² − 4Vaa = 2w + 0.96 → above −0.48.
+        let (b, s) = classify(&q(1.0, 1.0, 0.01, 0.0, 0.25));
+        assert_eq!(s, Significant::Above);
+        assert!((b[0] + 0.48).abs() < 1e-12, "{b:?}");
+        let (b, s) = classify(&q(1.0, -1.0, 0.01, 0.0, 0.25));
+        assert_eq!((b.len(), s), (1, Significant::Below));
+        // Without real roots Q > 0 needs Var = 0 where the effect is zero (A + Cw
+        // crosses zero otherwise); with C = Vcc = 0 the effect is a constant:
+        // significant everywhere when A² > t²Vaa, nowhere otherwise.
+        let (_, s) = classify(&Inversion::new(1.0, 0.0, 0.01, 0.0, 0.0, 2.0));
+        assert_eq!(s, Significant::Everywhere);
+        let (_, s) = classify(&Inversion::new(0.0, 0.0, 1.0, 0.0, 0.0, 2.0));
+        assert_eq!(s, Significant::Nowhere);
+    }
+}
