@@ -164,3 +164,20 @@ fn bootstrap_regions_agree_with_the_johnson_neyman_bound_in_the_data() {
         assert!(near, "bound {b} vs bootstrap stretches {stretches:?}");
     }
 }
+
+#[test]
+fn the_progress_callback_is_called_once_per_draw() {
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    let (c, f) = setup("turning m: x bootstrap 50 seed 1");
+    let frame = &c.data.as_ref().unwrap().frame;
+    let count = AtomicUsize::new(0);
+    let tick = || {
+        count.fetch_add(1, Ordering::Relaxed);
+    };
+    let options = ProbeOptions {
+        on_draw: Some(&tick),
+        ..ProbeOptions::default()
+    };
+    run(&c.requests[0], &c.models[0], &f, frame, None, &options).unwrap();
+    assert_eq!(count.load(Ordering::Relaxed), 50);
+}

@@ -64,7 +64,7 @@ pub(crate) fn plot(
         (Some(w_rows), false) => {
             let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows);
             let w_name = ctx.moderator.clone().unwrap_or_default();
-            notes.push(format!("`{w_name}` is {}", stats.words()));
+            notes.push(stats.words(&w_name));
             let series = request
                 .at
                 .iter()
@@ -176,4 +176,21 @@ fn short(v: f64) -> String {
     }
     let digits = (3 - v.abs().log10().floor() as i32).max(0) as usize;
     format!("{v:.digits$}")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_long_rug_keeps_evenly_spaced_order_statistics_and_both_ends() {
+        let v: Vec<f64> = (0..5000).rev().map(f64::from).collect();
+        let r = rug(&v);
+        assert_eq!(r.len(), RUG_MAX);
+        assert_eq!((r[0], r[RUG_MAX - 1]), (0.0, 4999.0));
+        // Spacing 4999/1999 ≈ 2.5 between kept order statistics.
+        assert!(r.windows(2).all(|w| (2.0..=3.0).contains(&(w[1] - w[0]))));
+        let short_rug = rug(&[3.0, 1.0, 2.0]);
+        assert_eq!(short_rug, vec![1.0, 2.0, 3.0]);
+    }
 }

@@ -59,14 +59,15 @@ impl ModeratorStats {
         }
     }
 
-    pub fn words(&self) -> String {
+    /// A sentence for the notes: over what the statistics of moderator `w` were taken.
+    pub fn words(&self, w: &str) -> String {
         match &self.over {
             (StatsOver::Groups, Some(g)) => format!(
-                "constant within `{g}`, so its mean, SD and percentiles are over the {} groups",
+                "`{w}` is constant within `{g}`, so its mean, SD and percentiles are over the {} groups",
                 self.sorted.len()
             ),
             _ => format!(
-                "its mean, SD and percentiles are over the {} rows of the estimation sample",
+                "the mean, SD and percentiles of `{w}` are over the {} rows of the estimation sample",
                 self.sorted.len()
             ),
         }

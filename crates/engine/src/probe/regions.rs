@@ -91,7 +91,7 @@ pub(crate) fn compute(ctx: &Focal, fit: &ModelFit, alpha: f64) -> Result<Regions
     )];
     if curved_in_x(ctx, (lo + hi) / 2.0) {
         notes.push(format!(
-            "the effect of `{}` depends on `{}` itself; it is taken at its mean ({x})",
+            "the effect of `{}` depends on `{}` itself; it is taken at its mean ({x:.4})",
             ctx.focal, ctx.focal
         ));
     }

@@ -35,7 +35,7 @@ pub(crate) fn probe(
     }
     let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows);
     let b = fit.coefficients();
-    let mut notes = vec![format!("`{w_name}` is {}", stats.words())];
+    let mut notes = vec![stats.words(&w_name)];
     let mut held_at = ctx.held_at.clone();
     let x = ctx.x_mean;
     if curved_in_x(ctx, stats.mean) {

@@ -179,11 +179,7 @@ pub(crate) fn turning(
     match (&ctx.w_rows, request.at.is_empty()) {
         (Some(w_rows), false) => {
             let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows);
-            notes.push(format!(
-                "`{}` is {}",
-                ctx.moderator.clone().unwrap_or_default(),
-                stats.words()
-            ));
+            notes.push(stats.words(&ctx.moderator.clone().unwrap_or_default()));
             for a in &request.at {
                 let w = stats.value(a.spec);
                 let (t, al, ga) = at(ctx, fit, &a.label, Some(w), options.level)?;
