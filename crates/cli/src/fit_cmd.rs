@@ -149,7 +149,7 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
         match result {
             Ok(Output::Plot(mut plot)) => {
                 plot.path = figure_path(&plot.path, &base, out);
-                match write_figure(&plot) {
+                match write_figure(&plot, out.is_some()) {
                     Ok(()) => probing.push(Output::Plot(plot)),
                     Err(message) => {
                         all_ok = false;
@@ -261,7 +261,15 @@ fn figure_path(resolved: &Path, base: &Path, out: Option<&Path>) -> PathBuf {
     }
 }
 
-fn write_figure(plot: &engine::probe::PlotResult) -> Result<(), String> {
+/// Write one figure; under `--out` its folder is created as needed (a folder
+/// beside the model file must already exist: the checker said so).
+fn write_figure(plot: &engine::probe::PlotResult, make_folder: bool) -> Result<(), String> {
+    if make_folder {
+        if let Some(parent) = plot.path.parent() {
+            std::fs::create_dir_all(parent)
+                .map_err(|e| format!("cannot create folder {}: {e}", parent.display()))?;
+        }
+    }
     std::fs::write(&plot.path, report::figure::svg(plot))
         .map_err(|e| format!("cannot write the figure {}: {e}", plot.path.display()))
 }

@@ -5,9 +5,9 @@
 use engine::probe::{EffectResult, PlotResult, ProbeResult, RegionsResult, TurningResult};
 
 use crate::markdown::capitalize;
-use crate::numbers::{apa_p, fixed, number, row_decimals, stat};
+use crate::numbers::{apa_p, fixed, number, plain, row_decimals, stat};
 use crate::probe_words::{
-    bootstrap_note, bounds_vs_data, fieller_cell, held_note, model_note, percent, region_sentence,
+    bounds_vs_data, fieller_cell, held_note, model_note, other_notes, percent, region_sentence,
     shape_words, stats_over_note, u_conditions,
 };
 use crate::text::p_phrase;
@@ -76,8 +76,7 @@ fn probe(results: &Results<'_>, p: &ProbeResult) -> String {
     n.extend(model_note(results.fit_named(&p.model)));
     n.push(stats_over_note(p));
     n.extend(held_note(&p.held_at));
-    n.extend(bootstrap_note(p.bootstrap));
-    n.extend(p.notes.iter().cloned());
+    n.extend(other_notes(&p.notes, &p.moderator));
     out.push_str(&note(n));
     out
 }
@@ -85,13 +84,10 @@ fn probe(results: &Results<'_>, p: &ProbeResult) -> String {
 fn regions(results: &Results<'_>, r: &RegionsResult) -> String {
     let mut out = format!(
         "**Region of significance of `{}` across `{}` (model {}, α = {}).**\n\n",
-        r.focal,
-        r.moderator,
-        r.model,
-        number(r.alpha)
+        r.focal, r.moderator, r.model, r.alpha
     );
     out.push_str("| Bound | Critical *t* | *df* | Observed range |\n|--:|--:|--:|:--|\n");
-    let range = format!("{} to {}", number(r.data_min), number(r.data_max));
+    let range = format!("{} to {}", plain(r.data_min), plain(r.data_max));
     if r.bounds.is_empty() {
         out.push_str(&format!(
             "| none | {} | {} | {range} |\n",
@@ -112,7 +108,7 @@ fn regions(results: &Results<'_>, r: &RegionsResult) -> String {
         bounds_vs_data(r),
     ];
     n.extend(model_note(results.fit_named(&r.model)));
-    n.extend(r.notes.iter().cloned());
+    n.extend(other_notes(&r.notes, &r.moderator));
     out.push_str(&note(n));
     out
 }
@@ -176,8 +172,7 @@ fn turning(results: &Results<'_>, r: &TurningResult) -> String {
         number(r.data_max)
     ));
     n.extend(model_note(results.fit_named(&r.model)));
-    n.extend(bootstrap_note(r.bootstrap));
-    n.extend(r.notes.iter().cloned());
+    n.extend(other_notes(&r.notes, r.moderator.as_deref().unwrap_or("")));
     out.push_str(&note(n));
     out
 }
@@ -216,18 +211,13 @@ fn effect(results: &Results<'_>, e: &EffectResult) -> String {
 }
 
 fn plot(p: &PlotResult) -> String {
-    let name = p
-        .path
-        .file_name()
-        .map_or(p.path.display().to_string(), |f| {
-            f.to_string_lossy().into_owned()
-        });
     format!(
-        "![{} of model {}]({name})\n\n",
+        "![{} of model {}]({})\n\n",
         match &p.moderator {
             Some(m) => format!("Effect of {} across {m}", p.focal),
             None => format!("Fitted curve of {}", p.focal),
         },
-        p.model
+        p.model,
+        p.path.display()
     )
 }

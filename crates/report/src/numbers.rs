@@ -33,6 +33,21 @@ pub fn number(x: f64) -> String {
     }
 }
 
+/// A data value such as an end of the observed range: four decimals at most,
+/// trailing zeros dropped (`0`, `1`, `0.211`).
+pub fn plain(x: f64) -> String {
+    if !x.is_finite() {
+        return number(x);
+    }
+    let s = format!("{x:.4}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".into()
+    } else {
+        s.to_string()
+    }
+}
+
 /// Decimals for one row of a coefficient table: enough for the SE to show three
 /// significant digits, at least four, at most eight, so a small coefficient
 /// such as a squared term is not printed as a row of zeros.
@@ -96,6 +111,10 @@ mod tests {
         assert_eq!(number(399.0), "399");
         assert_eq!(number(0.00001234), "1.234e-5");
         assert_eq!(share(0.9123), ".912");
+        assert_eq!(plain(0.0), "0");
+        assert_eq!(plain(1.0), "1");
+        assert_eq!(plain(0.21100001), "0.211");
+        assert_eq!(plain(-0.00001), "0");
         assert_eq!(row_decimals(0.0011), 5);
         assert_eq!(row_decimals(0.35), 4);
         assert_eq!(fixed(-0.019702, row_decimals(0.00109)), "-0.01970");

@@ -8,7 +8,7 @@ use engine::probe::{
 use engine::ModelFit;
 use statrs::distribution::{ContinuousCDF, StudentsT};
 
-use crate::numbers::{number, stat};
+use crate::numbers::{number, plain, stat};
 use crate::{errors_note, groups_words};
 
 /// "95%" from a level of 0.95.
@@ -65,13 +65,6 @@ pub fn held_note(held: &[(String, f64)]) -> Option<String> {
     ))
 }
 
-/// "2000 cluster bootstrap draws (seed 7), percentile intervals".
-pub fn bootstrap_note(b: Option<(u32, u64)>) -> Option<String> {
-    b.map(|(draws, seed)| {
-        format!("bootstrap intervals are percentile intervals of {draws} cluster bootstrap draws (seed {seed})")
-    })
-}
-
 /// Where the effect is significant, in plain words.
 pub fn region_sentence(r: &RegionsResult) -> String {
     let w = &r.moderator;
@@ -119,8 +112,8 @@ pub fn bounds_vs_data(r: &RegionsResult) -> String {
         return format!(
             "observed {} from {} to {}",
             r.moderator,
-            number(r.data_min),
-            number(r.data_max)
+            plain(r.data_min),
+            plain(r.data_max)
         );
     }
     let parts: Vec<String> = r
@@ -131,8 +124,8 @@ pub fn bounds_vs_data(r: &RegionsResult) -> String {
     format!(
         "observed {} from {} to {}; bound {}",
         r.moderator,
-        number(r.data_min),
-        number(r.data_max),
+        plain(r.data_min),
+        plain(r.data_max),
         parts.join(", bound ")
     )
 }
@@ -221,7 +214,7 @@ pub fn u_conditions(t: &TurningAt, r: &TurningResult) -> [Condition; 3] {
             words: format!(
                 "slope at the {end} end ({} = {}) is {word} and significant: {}, t = {}, one-sided p {}",
                 r.variable,
-                number(s.x),
+                plain(s.x),
                 number(s.slope),
                 stat(s.t),
                 crate::text::p_phrase(p)
@@ -239,8 +232,8 @@ pub fn u_conditions(t: &TurningAt, r: &TurningResult) -> [Condition; 3] {
                 number(t.point),
                 number(t.ci_delta.0),
                 number(t.ci_delta.1),
-                number(r.data_min),
-                number(r.data_max)
+                plain(r.data_min),
+                plain(r.data_max)
             ),
         },
     ]
@@ -252,4 +245,15 @@ pub fn at_words(moderator: Option<&str>, t: &TurningAt) -> String {
         (Some(m), Some(v)) => format!("{m} = {} ({})", t.label, number(v)),
         _ => String::new(),
     }
+}
+
+/// The engine's notes without those the report already states from the
+/// structured fields (the moderator statistics of `stats_over`, the critical
+/// value of a region).
+pub fn other_notes<'a>(notes: &'a [String], moderator: &str) -> impl Iterator<Item = String> + 'a {
+    let stats = format!("`{moderator}` is ");
+    notes
+        .iter()
+        .filter(move |n| !n.starts_with(&stats) && !n.starts_with("critical t "))
+        .cloned()
 }

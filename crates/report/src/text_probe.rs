@@ -6,7 +6,7 @@ use engine::probe::{EffectResult, PlotResult, ProbeResult, RegionsResult, Turnin
 
 use crate::numbers::{apa_p, fixed, number, row_decimals, stat};
 use crate::probe_words::{
-    at_words, bootstrap_note, bounds_vs_data, fieller_words, held_note, model_note, percent,
+    at_words, bounds_vs_data, fieller_words, held_note, model_note, other_notes, percent,
     region_sentence, shape_words, stats_over_note, u_conditions,
 };
 use crate::text::p_phrase;
@@ -123,8 +123,7 @@ fn probe(results: &Results<'_>, p: &ProbeResult) -> String {
     n.extend(model_note(results.fit_named(&p.model)));
     n.push(stats_over_note(p));
     n.extend(held_note(&p.held_at));
-    n.extend(bootstrap_note(p.bootstrap));
-    n.extend(p.notes.iter().cloned());
+    n.extend(other_notes(&p.notes, &p.moderator));
     notes(&mut out, n);
     out
 }
@@ -132,10 +131,7 @@ fn probe(results: &Results<'_>, p: &ProbeResult) -> String {
 fn regions(results: &Results<'_>, r: &RegionsResult) -> String {
     let mut out = format!(
         "regions {}: where the effect of {} is significant across {} (alpha {})\n\n",
-        r.model,
-        r.focal,
-        r.moderator,
-        number(r.alpha)
+        r.model, r.focal, r.moderator, r.alpha
     );
     let bounds = if r.bounds.is_empty() {
         "none (the quadratic has no real roots)".to_string()
@@ -159,7 +155,7 @@ fn regions(results: &Results<'_>, r: &RegionsResult) -> String {
     out.push_str(&format!("  Data: {}.\n\n", bounds_vs_data(r)));
     let mut n: Vec<String> = Vec::new();
     n.extend(model_note(results.fit_named(&r.model)));
-    n.extend(r.notes.iter().cloned());
+    n.extend(other_notes(&r.notes, &r.moderator));
     notes(&mut out, n);
     out
 }
@@ -235,8 +231,7 @@ fn turning(results: &Results<'_>, r: &TurningResult) -> String {
         number(r.data_min),
         number(r.data_max)
     ));
-    n.extend(bootstrap_note(r.bootstrap));
-    n.extend(r.notes.iter().cloned());
+    n.extend(other_notes(&r.notes, r.moderator.as_deref().unwrap_or("")));
     notes(&mut out, n);
     out
 }
