@@ -264,10 +264,23 @@ fn axes(s: &mut Svg, l: &Layout, plot: &PlotResult) {
 /// Each bound's value at the top of its mark, or an arrow note at the edge
 /// when it lies outside the data.
 fn bound_labels(s: &mut Svg, l: &Layout, r: &RegionsResult) {
-    for &b in &r.bounds {
+    let n = r.bounds.len();
+    for (i, &b) in r.bounds.iter().enumerate() {
         if b >= l.x.d0 && b <= l.x.d1 {
             let x = l.x.map(b);
-            let (anchor, dx) = if x > (l.left + l.right) / 2.0 {
+            // The lower of two bounds is labelled to its left and the upper to its
+            // right, so close bounds do not overprint; near an edge, inwards.
+            let left_of = if n == 2 {
+                i == 0
+            } else {
+                x > (l.left + l.right) / 2.0
+            };
+            let left_of = if left_of {
+                x - l.left > 30.0
+            } else {
+                l.right - x < 30.0
+            };
+            let (anchor, dx) = if left_of {
                 ("end", -2.0)
             } else {
                 ("start", 2.0)
