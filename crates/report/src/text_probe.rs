@@ -61,8 +61,14 @@ pub fn table(head: &[&str], align: &[Align], rows: &[Vec<String>]) -> String {
     out
 }
 
+/// Notes under a block, after a blank line when there are any.
 fn notes(out: &mut String, lines: impl IntoIterator<Item = String>) {
+    let mut first = true;
     for n in lines {
+        if first {
+            out.push('\n');
+            first = false;
+        }
         out.push_str(&format!("  Note: {n}.\n"));
     }
 }
@@ -118,7 +124,6 @@ fn probe(results: &Results<'_>, p: &ProbeResult) -> String {
             })
             .collect();
     out.push_str(&table(&head, &align, &rows));
-    out.push('\n');
     let mut n: Vec<String> = Vec::new();
     n.extend(model_note(results.fit_named(&p.model)));
     n.push(stats_over_note(p));
@@ -152,7 +157,7 @@ fn regions(results: &Results<'_>, r: &RegionsResult) -> String {
         fixed(r.critical, 4),
         number(r.df)
     ));
-    out.push_str(&format!("  Data: {}.\n\n", bounds_vs_data(r)));
+    out.push_str(&format!("  Data: {}.\n", bounds_vs_data(r)));
     let mut n: Vec<String> = Vec::new();
     n.extend(model_note(results.fit_named(&r.model)));
     n.extend(other_notes(&r.notes, &r.moderator));
@@ -167,7 +172,10 @@ fn turning(results: &Results<'_>, r: &TurningResult) -> String {
         out.push_str(&format!(" at values of {m}"));
     }
     out.push_str("\n\n");
-    for t in &r.at {
+    for (i, t) in r.at.iter().enumerate() {
+        if i > 0 {
+            out.push('\n');
+        }
         let at = at_words(r.moderator.as_deref(), t);
         if !at.is_empty() {
             out.push_str(&format!("  at {at}\n"));
@@ -221,7 +229,6 @@ fn turning(results: &Results<'_>, r: &TurningResult) -> String {
                 c.words
             ));
         }
-        out.push('\n');
     }
     let mut n: Vec<String> = Vec::new();
     n.extend(model_note(results.fit_named(&r.model)));
@@ -260,7 +267,6 @@ fn effect(results: &Results<'_>, e: &EffectResult) -> String {
             fixed(hi, d)
         ));
     }
-    out.push('\n');
     let mut n: Vec<String> = Vec::new();
     n.extend(model_note(results.fit_named(&e.model)));
     n.push(format!(
