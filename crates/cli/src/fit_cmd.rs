@@ -244,7 +244,7 @@ fn progress_bar(r: &check::Request, format: ReportFormat) -> Option<indicatif::P
     }
     let bar = indicatif::ProgressBar::new(u64::from(draws));
     if let Ok(style) = indicatif::ProgressStyle::with_template(
-        "  bootstrap {bar:30} {pos}/{len} draws, {elapsed} (about {eta} left)",
+        "  {msg}: bootstrap {bar:30} {pos}/{len} draws, {elapsed} (about {eta} left)",
     ) {
         bar.set_style(style);
     }

@@ -108,6 +108,7 @@ fn regions(results: &Results<'_>, r: &RegionsResult) -> String {
         bounds_vs_data(r),
     ];
     n.extend(model_note(results.fit_named(&r.model)));
+    n.extend(crate::probe_words::boot_region_words(r));
     n.extend(other_notes(&r.notes, &r.moderator));
     out.push_str(&note(n));
     out

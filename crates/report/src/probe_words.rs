@@ -257,3 +257,23 @@ pub fn other_notes<'a>(notes: &'a [String], moderator: &str) -> impl Iterator<It
         .filter(move |n| !n.starts_with(&stats) && !n.starts_with("critical t "))
         .cloned()
 }
+
+/// Where the bootstrap percentile interval of the effect excludes zero, when asked for.
+pub fn boot_region_words(r: &RegionsResult) -> Option<String> {
+    let spans = r.boot_significant.as_ref()?;
+    if spans.is_empty() {
+        return Some(format!(
+            "by the bootstrap percentile intervals the effect is not significant anywhere in the observed range of {}",
+            r.moderator
+        ));
+    }
+    let parts: Vec<String> = spans
+        .iter()
+        .map(|(a, b)| format!("{} to {}", plain(*a), plain(*b)))
+        .collect();
+    Some(format!(
+        "by the bootstrap percentile intervals the effect is significant for {} from {}",
+        r.moderator,
+        parts.join(" and from ")
+    ))
+}

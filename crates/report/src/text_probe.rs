@@ -160,6 +160,7 @@ fn regions(results: &Results<'_>, r: &RegionsResult) -> String {
     out.push_str(&format!("  Data: {}.\n", bounds_vs_data(r)));
     let mut n: Vec<String> = Vec::new();
     n.extend(model_note(results.fit_named(&r.model)));
+    n.extend(crate::probe_words::boot_region_words(r));
     n.extend(other_notes(&r.notes, &r.moderator));
     notes(&mut out, n);
     out
