@@ -74,9 +74,9 @@ fn probe(results: &Results<'_>, p: &ProbeResult) -> String {
     }
     let mut n: Vec<String> = Vec::new();
     n.extend(model_note(results.fit_named(&p.model)));
-    n.push(stats_over_note(p));
+    n.extend(stats_over_note(p));
     n.extend(held_note(&p.held_at));
-    n.extend(other_notes(&p.notes, &p.moderator));
+    n.extend(other_notes(&p.notes));
     out.push_str(&note(n));
     out
 }
@@ -109,7 +109,7 @@ fn regions(results: &Results<'_>, r: &RegionsResult) -> String {
     ];
     n.extend(model_note(results.fit_named(&r.model)));
     n.extend(crate::probe_words::boot_region_words(r));
-    n.extend(other_notes(&r.notes, &r.moderator));
+    n.extend(other_notes(&r.notes));
     out.push_str(&note(n));
     out
 }
@@ -173,7 +173,7 @@ fn turning(results: &Results<'_>, r: &TurningResult) -> String {
         number(r.data_max)
     ));
     n.extend(model_note(results.fit_named(&r.model)));
-    n.extend(other_notes(&r.notes, r.moderator.as_deref().unwrap_or("")));
+    n.extend(other_notes(&r.notes));
     out.push_str(&note(n));
     out
 }

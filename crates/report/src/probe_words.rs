@@ -34,9 +34,13 @@ pub fn model_note(fit: Option<&ModelFit>) -> Option<String> {
     Some(s)
 }
 
-/// Over what the moderator values were taken, in words.
-pub fn stats_over_note(probe: &ProbeResult) -> String {
-    match &probe.stats_over {
+/// Over what the moderator values were taken, in words, unless the engine's
+/// notes already say it (they also give the count of rows or groups).
+pub fn stats_over_note(probe: &ProbeResult) -> Option<String> {
+    if probe.notes.iter().any(|n| n.contains("percentiles")) {
+        return None;
+    }
+    Some(match &probe.stats_over {
         (StatsOver::Rows, _) => format!(
             "mean, SD and percentiles of {} taken over the rows of the estimation sample",
             probe.moderator
@@ -47,7 +51,7 @@ pub fn stats_over_note(probe: &ProbeResult) -> String {
             g.as_deref()
                 .map_or("groups".to_string(), |g| format!("the groups of {g}"))
         ),
-    }
+    })
 }
 
 /// "other variables held at log(staff) = 3.2104, tenure = 5.1" or None.
@@ -247,14 +251,12 @@ pub fn at_words(moderator: Option<&str>, t: &TurningAt) -> String {
     }
 }
 
-/// The engine's notes without those the report already states from the
-/// structured fields (the moderator statistics of `stats_over`, the critical
-/// value of a region).
-pub fn other_notes<'a>(notes: &'a [String], moderator: &str) -> impl Iterator<Item = String> + 'a {
-    let stats = format!("`{moderator}` is ");
+/// The engine's notes without the one the report already states from the
+/// structured fields (the critical value of a region).
+pub fn other_notes(notes: &[String]) -> impl Iterator<Item = String> + '_ {
     notes
         .iter()
-        .filter(move |n| !n.starts_with(&stats) && !n.starts_with("critical t "))
+        .filter(|n| !n.starts_with("critical t "))
         .cloned()
 }
 

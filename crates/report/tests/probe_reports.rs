@@ -149,8 +149,8 @@ fn terminal_blocks_say_every_case_in_words() {
           -1sd      2.5000   0.4200  0.1100  149   3.82  .012  [0.2026, 0.6374]   [0.2000, 0.6500]
           +1sd      7.5000  -0.0500  0.1200  149  -0.42  .012  [-0.2871, 0.1871]  [-0.3000, 0.2000]
 
-          Note: mean, SD and percentiles of meetings taken over the groups of team (one value per group, since it does not vary within them).
           Note: other variables held at their sample means: tenure = 5.2500.
+          Note: `meetings` is constant within `team`, so its mean, SD and percentiles are over the 150 groups.
           Note: cluster bootstrap: 2000 draws of the 150 groups of `team` (seed 7), percentile intervals.
 
         regions full: where the effect of remote_w is significant across meetings (alpha 0.05)
@@ -197,7 +197,7 @@ fn markdown_tables_carry_the_same_numbers() {
         | -1sd | 2.5000 | 0.4200 | 0.1100 | 149 | 3.82 | .012 | [0.2026, 0.6374] | [0.2000, 0.6500] |
         | +1sd | 7.5000 | -0.0500 | 0.1200 | 149 | -0.42 | .012 | [-0.2871, 0.1871] | [-0.3000, 0.2000] |
 
-        *Note.* Mean, SD and percentiles of meetings taken over the groups of team (one value per group, since it does not vary within them). Other variables held at their sample means: tenure = 5.2500. Cluster bootstrap: 2000 draws of the 150 groups of `team` (seed 7), percentile intervals.
+        *Note.* Other variables held at their sample means: tenure = 5.2500. `meetings` is constant within `team`, so its mean, SD and percentiles are over the 150 groups. Cluster bootstrap: 2000 draws of the 150 groups of `team` (seed 7), percentile intervals.
 
         **Region of significance of `remote_w` across `meetings` (model full, α = 0.05).**
 
