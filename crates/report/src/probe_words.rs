@@ -279,3 +279,34 @@ pub fn boot_region_words(r: &RegionsResult) -> Option<String> {
         parts.join(" and from ")
     ))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn probe(notes: Vec<String>) -> ProbeResult {
+        ProbeResult {
+            model: "m".into(),
+            focal: "x".into(),
+            moderator: "w".into(),
+            at: vec![],
+            stats_over: (StatsOver::Groups, Some("team".into())),
+            held_at: vec![],
+            level: 0.95,
+            bootstrap: None,
+            notes,
+        }
+    }
+
+    #[test]
+    fn the_moderator_statistics_are_named_once() {
+        assert_eq!(
+            stats_over_note(&probe(vec![])).as_deref(),
+            Some("mean, SD and percentiles of w taken over the groups of team (one value per group, since it does not vary within them)")
+        );
+        let engine_says = "`w` is constant within `team`, so its mean, SD and percentiles are over the 150 groups";
+        assert_eq!(stats_over_note(&probe(vec![engine_says.into()])), None);
+        assert_eq!(percent(0.95), "95%");
+        assert_eq!(percent(0.9), "90%");
+    }
+}
