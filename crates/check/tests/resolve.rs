@@ -107,7 +107,11 @@ fn teams_demo_resolves_as_a_mixed_model_with_cross_level_interaction() {
     assert_eq!(rows.missing_by, [("tenure".to_string(), 9)]);
     assert_eq!(m.random.len(), 2);
     assert!(m.random[0].intercept && m.random[0].slopes[0].label == "remote_w");
-    assert_eq!(c.requests.len(), 3);
+    // Three statements on the mixed model, four on the within-team model.
+    assert_eq!(c.requests.len(), 7);
+    let within = &c.models[1];
+    assert_eq!(within.kind, Kind::Within);
+    assert_eq!(within.terms[1].absorbed_by, Vec::<String>::new());
 }
 
 #[test]

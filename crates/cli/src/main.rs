@@ -41,7 +41,12 @@ groupings, with the standard errors its `errors` line asks for. Tables show each
 estimate, standard error, df, t, p and 95% confidence interval, with notes naming the \
 standard errors, the df and every row not used. `compare` lines are tested with a Wald F \
 test on the larger model's covariance.\n\n\
-Exit status: 0 when every model was estimated, 1 otherwise."
+Then every probing statement is computed: `probe` (effects at moderator values), `regions` \
+(Johnson–Neyman bounds), `turning` (turning point, delta and Fieller intervals, U test), \
+`effect` (average marginal effect), with a cluster bootstrap where a statement asks for one, \
+and each `plot` is written as an SVG figure. With `--out DIR`, the report goes to \
+DIR/report.md and DIR/report.json and figures with relative paths go into DIR.\n\n\
+Exit status: 0 when every model and statement was computed, 1 otherwise."
     )]
     Fit {
         /// The model file, e.g. demo-data/suppliers.slope

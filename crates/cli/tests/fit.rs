@@ -10,7 +10,16 @@ use common::{root, slopewise, text};
 
 #[test]
 fn the_panel_demo_fits_and_the_json_follows_the_design() {
-    let out = slopewise(&["fit", "demo-data/suppliers.slope", "--format", "json"]);
+    let figures = std::env::temp_dir().join(format!("slopewise-panel-{}", std::process::id()));
+    let out = slopewise(&[
+        "fit",
+        "demo-data/suppliers.slope",
+        "--format",
+        "json",
+        "--out",
+        figures.to_str().unwrap(),
+    ]);
+    let _ = std::fs::remove_dir_all(&figures);
     assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
     let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     for key in [
@@ -76,7 +85,10 @@ fn the_panel_demo_fits_and_the_json_follows_the_design() {
 
 #[test]
 fn text_and_markdown_reports_name_the_errors_and_rows() {
-    let out = slopewise(&["fit", "demo-data/suppliers.slope"]);
+    // Figures go to a folder of the test's own, not into demo-data/.
+    let figures = std::env::temp_dir().join(format!("slopewise-tables-{}", std::process::id()));
+    let figures = figures.to_str().unwrap();
+    let out = slopewise(&["fit", "demo-data/suppliers.slope", "--out", figures]);
     let stdout = text(&out.stdout);
     assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
     assert!(
@@ -95,7 +107,15 @@ fn text_and_markdown_reports_name_the_errors_and_rows() {
         stdout.contains("compare base, shape: F(3, 399)"),
         "{stdout}"
     );
-    let out = slopewise(&["fit", "demo-data/suppliers.slope", "--format", "markdown"]);
+    let out = slopewise(&[
+        "fit",
+        "demo-data/suppliers.slope",
+        "--format",
+        "markdown",
+        "--out",
+        figures,
+    ]);
+    let _ = std::fs::remove_dir_all(figures);
     let md = text(&out.stdout);
     assert!(
         md.contains("| Term | Estimate | SE | *df* | *t* | *p* | 95% CI |"),
@@ -240,8 +260,18 @@ fn coefficient(model: &serde_json::Value, term: &str) -> f64 {
 
 #[test]
 fn both_demo_files_run_in_every_format() {
+    // Figures go to a folder of the test's own, not into demo-data/.
+    let figures = std::env::temp_dir().join(format!("slopewise-demo-{}", std::process::id()));
+    let figures_arg = figures.to_str().unwrap();
     for format in ["text", "json", "markdown"] {
-        let out = slopewise(&["fit", "demo-data/suppliers.slope", "--format", format]);
+        let out = slopewise(&[
+            "fit",
+            "demo-data/suppliers.slope",
+            "--format",
+            format,
+            "--out",
+            figures_arg,
+        ]);
         assert_eq!(
             out.status.code(),
             Some(0),
@@ -280,11 +310,23 @@ fn both_demo_files_run_in_every_format() {
             }
             _ => {
                 let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-                // As the file asks: two turning statements, one effect, no probe or region.
+                // As the file asks: two turning statements, one effect, no probe or
+                // region, three figures.
                 assert_eq!(doc["turning"].as_array().unwrap().len(), 2);
                 assert_eq!(doc["effects"].as_array().unwrap().len(), 1);
                 assert_eq!(doc["probes"].as_array().unwrap().len(), 0);
                 assert_eq!(doc["regions"].as_array().unwrap().len(), 0);
+                for name in [
+                    "uptime_curve.svg",
+                    "uptime_by_digital.svg",
+                    "suppliers_effect_by_digital.svg",
+                ] {
+                    let svg = std::fs::read_to_string(figures.join(name)).unwrap();
+                    assert!(
+                        svg.starts_with("<svg") || svg.starts_with("<?xml"),
+                        "{name}"
+                    );
+                }
                 let shape = &doc["models"][1];
                 let t = &doc["turning"][0]["at"][0];
                 // Closed form of the turning point with the moderator held at its mean,
@@ -321,9 +363,17 @@ fn both_demo_files_run_in_every_format() {
         }
     }
     // The mixed-model demo: this version refuses to estimate `vary`, and says so
-    // at the model and at every probing statement that depends on it.
+    // at the model and at every probing statement that depends on it; the
+    // within-team model of the same file is estimated and probed.
     for format in ["text", "json", "markdown"] {
-        let out = slopewise(&["fit", "demo-data/teams.slope", "--format", format]);
+        let out = slopewise(&[
+            "fit",
+            "demo-data/teams.slope",
+            "--format",
+            format,
+            "--out",
+            figures_arg,
+        ]);
         assert_eq!(out.status.code(), Some(1), "{format}");
         let stderr = text(&out.stderr);
         assert!(
@@ -338,7 +388,14 @@ fn both_demo_files_run_in_every_format() {
         }
         if format == "json" {
             let doc: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-            assert_eq!(doc["probes"].as_array().unwrap().len(), 0);
+            let probes = doc["probes"].as_array().unwrap();
+            assert_eq!(probes.len(), 1);
+            assert_eq!(probes[0]["model"], "within_team");
+            assert_eq!(
+                probes[0]["stats_over"], "groups",
+                "meetings is a team-level variable"
+            );
+            assert_eq!(doc["regions"].as_array().unwrap().len(), 1);
             let warned = doc["diagnostics"]
                 .as_array()
                 .unwrap()
@@ -349,6 +406,8 @@ fn both_demo_files_run_in_every_format() {
         }
     }
     assert!(!root().join("demo-data/remote_by_meetings.svg").exists());
+    assert!(figures.join("remote_effect_by_meetings.svg").exists());
+    let _ = std::fs::remove_dir_all(&figures);
 }
 
 #[test]

@@ -189,8 +189,9 @@ fn format_at(t: &engine::probe::TurningAt) -> String {
 fn effect(results: &Results<'_>, e: &EffectResult) -> String {
     let x = &e.effect;
     let d = row_decimals(x.std_error);
+    let level = percent(e.level);
     let mut out = format!(
-        "Average marginal effect of `{}` (model {}): {}, SE = {}, *t*({}) = {}, *p* {}, CI [{}, {}].\n",
+        "Average marginal effect of `{}` (model {}): {}, SE = {}, *t*({}) = {}, *p* {}, {level} CI [{}, {}].\n",
         e.variable,
         e.model,
         fixed(x.estimate, d),

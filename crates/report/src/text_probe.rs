@@ -251,8 +251,9 @@ fn effect(results: &Results<'_>, e: &EffectResult) -> String {
         "effect {}: average marginal effect of {}\n\n",
         e.model, e.variable
     );
+    let level = percent(e.level);
     out.push_str(&format!(
-        "  estimate {}, SE {}, t = {} on {} df, p {}, CI [{}, {}]\n",
+        "  estimate {}, SE {}, t = {} on {} df, p {}, {level} CI [{}, {}]\n",
         fixed(x.estimate, d),
         fixed(x.std_error, d),
         stat(x.t),
@@ -263,7 +264,7 @@ fn effect(results: &Results<'_>, e: &EffectResult) -> String {
     ));
     if let Some((lo, hi)) = x.boot_ci {
         out.push_str(&format!(
-            "  bootstrap CI [{}, {}]\n",
+            "  bootstrap {level} CI [{}, {}]\n",
             fixed(lo, d),
             fixed(hi, d)
         ));

@@ -108,6 +108,7 @@ fn outputs() -> Vec<Output> {
         model: "shape".into(),
         variable: "suppliers".into(),
         effect: estimate(0.0345, 0.0052, None),
+        level: 0.95,
         notes: vec![],
     };
     vec![
@@ -177,7 +178,7 @@ fn terminal_blocks_say_every_case_in_words() {
 
         effect shape: average marginal effect of suppliers
 
-          estimate 0.03450, SE 0.00520, t = 6.63 on 149 df, p = .012, CI [0.02422, 0.04478]
+          estimate 0.03450, SE 0.00520, t = 6.63 on 149 df, p = .012, 95% CI [0.02422, 0.04478]
 
           Note: the derivative of the fitted outcome with respect to suppliers averaged over the estimation sample; delta-method SE.
 
@@ -215,7 +216,7 @@ fn markdown_tables_carry_the_same_numbers() {
 
         *Note.* U test of an inverted U shape against a monotone or opposite shape: the smaller of the two end-slope t values, one-sided, on 100 df; the conditions are a slope of the required sign significant at each end of the data and the turning point with its interval inside the data. Observed suppliers from 1 to 39; slopes are taken at these ends.
 
-        Average marginal effect of `suppliers` (model shape): 0.03450, SE = 0.00520, *t*(149) = 6.63, *p* = .012, CI [0.02422, 0.04478].
+        Average marginal effect of `suppliers` (model shape): 0.03450, SE = 0.00520, *t*(149) = 6.63, *p* = .012, 95% CI [0.02422, 0.04478].
 
         *Note.* The derivative of the fitted outcome with respect to `suppliers` averaged over the estimation sample, with a delta-method SE.
 

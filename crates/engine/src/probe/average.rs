@@ -31,10 +31,11 @@ pub(crate) fn effect(
         model: fit.name.clone(),
         variable: ctx.focal.clone(),
         effect: e,
+        level: options.level,
         notes: vec![format!(
             "average of the row-wise effect of `{}` over the {} rows of the estimation sample",
             ctx.focal,
-            ctx.rows.len()
+            check::count(ctx.rows.len())
         )],
     })
 }

@@ -170,7 +170,8 @@ fn rug(values: &[f64]) -> Vec<f64> {
 }
 
 /// Four significant digits for labels.
-fn short(v: f64) -> String {
+/// A value for a note: four significant digits, plain notation.
+pub(crate) fn short(v: f64) -> String {
     if v == 0.0 || !v.is_finite() {
         return format!("{v}");
     }

@@ -206,6 +206,8 @@ pub struct EffectResult {
     pub model: String,
     pub variable: String,
     pub effect: Estimate,
+    /// Confidence level of the interval.
+    pub level: f64,
     pub notes: Vec<String>,
 }
 

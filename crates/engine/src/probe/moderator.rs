@@ -64,11 +64,11 @@ impl ModeratorStats {
         match &self.over {
             (StatsOver::Groups, Some(g)) => format!(
                 "`{w}` is constant within `{g}`, so its mean, SD and percentiles are over the {} groups",
-                self.sorted.len()
+                check::count(self.sorted.len())
             ),
             _ => format!(
                 "the mean, SD and percentiles of `{w}` are over the {} rows of the estimation sample",
-                self.sorted.len()
+                check::count(self.sorted.len())
             ),
         }
     }

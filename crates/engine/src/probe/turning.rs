@@ -200,7 +200,7 @@ pub(crate) fn turning(
         let held: Vec<String> = ctx
             .held_at
             .iter()
-            .map(|(n, v)| format!("`{n}` = {v}"))
+            .map(|(n, v)| format!("`{n}` = {}", super::figure::short(*v)))
             .collect();
         notes.push(format!("held at their means: {}", held.join(", ")));
     }
