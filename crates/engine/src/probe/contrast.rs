@@ -63,6 +63,39 @@ pub(crate) fn estimate(inf: &dyn Inference, b: &[f64], g: &[f64], level: f64) ->
     }
 }
 
+/// A gradient `grad(v)` written as a + c·v, or `None` when it is not linear
+/// in v (the variable enters through a power, `log` or `sqrt`).
+///
+/// Algorithm: a and c from the gradients at `lo` and `hi` (callers check that
+/// `lo < hi`); the line is then checked at a third point inside the range,
+/// lo + 0.381966·(hi − lo). Tolerance: every entry there must match a + c·v to
+/// 1e-9 of the largest entry seen at the three points.
+pub(crate) fn linear_in(
+    lo: f64,
+    hi: f64,
+    grad: impl Fn(f64) -> Vec<f64>,
+) -> Option<(Vec<f64>, Vec<f64>)> {
+    let (d0, d1) = (grad(lo), grad(hi));
+    let c: Vec<f64> = d0
+        .iter()
+        .zip(&d1)
+        .map(|(a, b)| (b - a) / (hi - lo))
+        .collect();
+    let a: Vec<f64> = d0.iter().zip(&c).map(|(d, c)| d - c * lo).collect();
+    let vm = lo + 0.381_966 * (hi - lo);
+    let dm = grad(vm);
+    let size = dm
+        .iter()
+        .chain(&d0)
+        .chain(&d1)
+        .fold(0.0f64, |m, v| m.max(v.abs()));
+    let linear = dm
+        .iter()
+        .zip(a.iter().zip(&c))
+        .all(|(d, (a, c))| (d - (a + c * vm)).abs() <= 1e-9 * size.max(f64::MIN_POSITIVE));
+    linear.then_some((a, c))
+}
+
 /// Q(v) = (A + C v)² − t² (Vaa + 2 v Vac + v² Vcc): positive exactly where the
 /// t statistic of the linear function A + C v exceeds `t` in size.
 #[derive(Clone, Copy, Debug)]
@@ -167,6 +200,18 @@ mod tests {
         // C² = t² Vcc exactly: Q = 2(AC − t²Vac) v + A² − t²Vaa.
         let q = Inversion::new(1.0, 2.0, 0.25, 0.0, 1.0, 2.0);
         assert_eq!(q.roots(), Roots::Linear(Some(0.0)));
+    }
+
+    #[test]
+    fn a_straight_gradient_is_recovered_and_a_curved_one_refused() {
+        // (1 + 2v, 3) is a + c·v with a = (1, 3), c = (2, 0) by hand; v² is not linear.
+        let (a, c) = linear_in(0.0, 4.0, |v| vec![1.0 + 2.0 * v, 3.0]).unwrap();
+        for (g, w) in a.iter().chain(&c).zip([1.0, 3.0, 2.0, 0.0]) {
+            assert!((g - w).abs() < 1e-12, "{a:?} {c:?}");
+        }
+        assert!(linear_in(0.0, 1.0, |v| vec![v * v]).is_none());
+        // A tiny curvature below 1e-9 of the gradient's size still counts as straight.
+        assert!(linear_in(0.0, 1.0, |v| vec![1.0 + v + 1e-12 * v * v]).is_some());
     }
 
     #[test]

@@ -12,7 +12,7 @@
 
 use check::Request;
 
-use super::contrast::{dot, form, Inversion, Roots};
+use super::contrast::{dot, form, linear_in, Inversion, Roots};
 use super::point::{range, Focal};
 use super::simple::{curved_in_x, Boot};
 use super::{Inference, RegionsResult, Significant};
@@ -29,31 +29,12 @@ pub(crate) fn linear_in_w(
     if hi.is_nan() || lo.is_nan() || hi <= lo {
         return Err(format!("`{w_name}` does not vary in the estimation sample"));
     }
-    let (d0, d1) = (ctx.slope(x, lo), ctx.slope(x, hi));
-    let c: Vec<f64> = d0
-        .iter()
-        .zip(&d1)
-        .map(|(a, b)| (b - a) / (hi - lo))
-        .collect();
-    let a: Vec<f64> = d0.iter().zip(&c).map(|(d, c)| d - c * lo).collect();
-    let wm = lo + 0.381_966 * (hi - lo);
-    let dm = ctx.slope(x, wm);
-    let size = dm
-        .iter()
-        .chain(&d0)
-        .chain(&d1)
-        .fold(0.0f64, |m, v| m.max(v.abs()));
-    let linear = dm
-        .iter()
-        .zip(a.iter().zip(&c))
-        .all(|(d, (a, c))| (d - (a + c * wm)).abs() <= 1e-9 * size.max(f64::MIN_POSITIVE));
-    if !linear {
-        return Err(format!(
+    linear_in(lo, hi, |w| ctx.slope(x, w)).ok_or_else(|| {
+        format!(
             "the effect of `{}` is not a straight line in `{w_name}` (it enters through a power, `log` or `sqrt`), so Johnson–Neyman bounds do not apply; probe it at chosen values instead",
             ctx.focal
-        ));
-    }
-    Ok((a, c))
+        )
+    })
 }
 
 /// The bounds and the case, without the bootstrap.

@@ -22,7 +22,7 @@
 
 use check::Request;
 
-use super::contrast::{critical, dot, estimate, form, upper_tail, Inversion, Roots};
+use super::contrast::{critical, dot, estimate, form, linear_in, upper_tail, Inversion, Roots};
 use super::moderator::ModeratorStats;
 use super::point::Focal;
 use super::simple::Boot;
@@ -40,31 +40,12 @@ fn linear_in_x(ctx: &Focal, w: f64) -> Result<(Vec<f64>, Vec<f64>), String> {
             ctx.focal
         ));
     }
-    let (d0, d1) = (ctx.slope(lo, w), ctx.slope(hi, w));
-    let gamma: Vec<f64> = d0
-        .iter()
-        .zip(&d1)
-        .map(|(a, b)| (b - a) / (hi - lo))
-        .collect();
-    let alpha: Vec<f64> = d0.iter().zip(&gamma).map(|(d, g)| d - g * lo).collect();
-    let xm = lo + 0.381_966 * (hi - lo);
-    let dm = ctx.slope(xm, w);
-    let size = dm
-        .iter()
-        .chain(&d0)
-        .chain(&d1)
-        .fold(0.0f64, |m, v| m.max(v.abs()));
-    let linear = dm
-        .iter()
-        .zip(alpha.iter().zip(&gamma))
-        .all(|(d, (a, g))| (d - (a + g * xm)).abs() <= 1e-9 * size.max(f64::MIN_POSITIVE));
-    if !linear {
-        return Err(format!(
+    linear_in(lo, hi, |x| ctx.slope(x, w)).ok_or_else(|| {
+        format!(
             "the slope of `{0}` is not a straight line in `{0}` (it enters through `log`, `sqrt` or a power above 2), so the turning point of a quadratic does not apply",
             ctx.focal
-        ));
-    }
-    Ok((alpha, gamma))
+        )
+    })
 }
 
 /// The turning point and its inference at one moderator value (`w` is NaN
