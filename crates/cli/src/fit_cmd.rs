@@ -112,7 +112,8 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
     for r in &checked.requests {
         let Some(k) = fit_of[r.model] else {
             let model = &checked.models[r.model].name;
-            lines.push(statement_note(
+            lines.push(statement_line(
+                "warning",
                 &name,
                 &text,
                 &index,
@@ -153,7 +154,8 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
                     Ok(()) => probing.push(Output::Plot(plot)),
                     Err(message) => {
                         all_ok = false;
-                        lines.push(statement_error(
+                        lines.push(statement_line(
+                            "error",
                             &name,
                             &text,
                             &index,
@@ -216,14 +218,7 @@ fn estimation_error(
     offset: usize,
     e: &engine::FitError,
 ) -> DiagnosticLine {
-    let p = index.char_pos(text, offset);
-    eprintln!("{name}:{}:{}: error: {e}", p.line + 1, p.col + 1);
-    DiagnosticLine {
-        severity: "error",
-        message: e.to_string(),
-        line: p.line + 1,
-        column: p.col + 1,
-    }
+    statement_line("error", name, text, index, offset, &e.to_string())
 }
 
 fn kind_word(k: RequestKind) -> &'static str {
@@ -288,8 +283,9 @@ fn relative_to(o: &Output, dir: &Path) -> Output {
     }
 }
 
-/// Print an error at a statement and keep it for the JSON document.
-fn statement_error(
+/// Print a message of `severity` at a statement and keep it for the JSON document.
+fn statement_line(
+    severity: &'static str,
     name: &str,
     text: &str,
     index: &LineIndex,
@@ -297,27 +293,9 @@ fn statement_error(
     message: &str,
 ) -> DiagnosticLine {
     let p = index.char_pos(text, offset);
-    eprintln!("{name}:{}:{}: error: {message}", p.line + 1, p.col + 1);
+    eprintln!("{name}:{}:{}: {severity}: {message}", p.line + 1, p.col + 1);
     DiagnosticLine {
-        severity: "error",
-        message: message.to_string(),
-        line: p.line + 1,
-        column: p.col + 1,
-    }
-}
-
-/// A statement that was skipped, as a warning.
-fn statement_note(
-    name: &str,
-    text: &str,
-    index: &LineIndex,
-    offset: usize,
-    message: &str,
-) -> DiagnosticLine {
-    let p = index.char_pos(text, offset);
-    eprintln!("{name}:{}:{}: warning: {message}", p.line + 1, p.col + 1);
-    DiagnosticLine {
-        severity: "warning",
+        severity,
         message: message.to_string(),
         line: p.line + 1,
         column: p.col + 1,
