@@ -7,8 +7,8 @@ use engine::probe::{EffectResult, PlotResult, ProbeResult, RegionsResult, Turnin
 use crate::markdown::capitalize;
 use crate::numbers::{apa_p, fixed, number, plain, row_decimals, stat};
 use crate::probe_words::{
-    bounds_vs_data, fieller_cell, held_note, model_note, other_notes, percent, region_sentence,
-    shape_words, stats_over_note, u_conditions,
+    bounds_vs_data, fieller_cell, model_note, other_notes, percent, probe_notes, region_sentence,
+    shape_words, u_conditions,
 };
 use crate::text::p_phrase;
 use crate::{Output, Results};
@@ -72,12 +72,7 @@ fn probe(results: &Results<'_>, p: &ProbeResult) -> String {
         }
         out.push('\n');
     }
-    let mut n: Vec<String> = Vec::new();
-    n.extend(model_note(results.fit_named(&p.model)));
-    n.extend(stats_over_note(p));
-    n.extend(held_note(&p.held_at));
-    n.extend(other_notes(&p.notes));
-    out.push_str(&note(n));
+    out.push_str(&note(probe_notes(results.fit_named(&p.model), p)));
     out
 }
 

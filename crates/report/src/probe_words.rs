@@ -34,6 +34,18 @@ pub fn model_note(fit: Option<&ModelFit>) -> Option<String> {
     Some(s)
 }
 
+/// The notes under a table of effects at moderator values, in the order both
+/// reports give them: the model, the moderator statistics, the variables held
+/// fixed, then the engine's own notes.
+pub fn probe_notes(fit: Option<&ModelFit>, p: &ProbeResult) -> Vec<String> {
+    let mut n: Vec<String> = Vec::new();
+    n.extend(model_note(fit));
+    n.extend(stats_over_note(p));
+    n.extend(held_note(&p.held_at));
+    n.extend(other_notes(&p.notes));
+    n
+}
+
 /// Over what the moderator values were taken, in words, unless the engine's
 /// notes already say it (they also give the count of rows or groups).
 pub fn stats_over_note(probe: &ProbeResult) -> Option<String> {

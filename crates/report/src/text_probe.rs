@@ -6,8 +6,8 @@ use engine::probe::{EffectResult, PlotResult, ProbeResult, RegionsResult, Turnin
 
 use crate::numbers::{apa_p, fixed, number, row_decimals, stat};
 use crate::probe_words::{
-    at_words, bounds_vs_data, fieller_words, held_note, model_note, other_notes, percent,
-    region_sentence, shape_words, stats_over_note, u_conditions,
+    at_words, bounds_vs_data, fieller_words, model_note, other_notes, percent, probe_notes,
+    region_sentence, shape_words, u_conditions,
 };
 use crate::text::p_phrase;
 use crate::{Output, Results};
@@ -124,12 +124,7 @@ fn probe(results: &Results<'_>, p: &ProbeResult) -> String {
             })
             .collect();
     out.push_str(&table(&head, &align, &rows));
-    let mut n: Vec<String> = Vec::new();
-    n.extend(model_note(results.fit_named(&p.model)));
-    n.extend(stats_over_note(p));
-    n.extend(held_note(&p.held_at));
-    n.extend(other_notes(&p.notes));
-    notes(&mut out, n);
+    notes(&mut out, probe_notes(results.fit_named(&p.model), p));
     out
 }
 
