@@ -1,0 +1,50 @@
+//! One run of the checker over a document's text, kept until the next run so
+//! that requests (hover, code actions) can answer from it.
+
+use std::collections::HashSet;
+use std::path::Path;
+use std::sync::Arc;
+
+use check::{Checked, DataProvider};
+use syntax::{LineIndex, Parsed};
+
+use crate::index::SymbolIndex;
+
+/// The checker's findings for one version of a document.
+pub struct Analysis {
+    pub version: i32,
+    pub text: Arc<str>,
+    pub index: LineIndex,
+    pub parsed: Parsed,
+    pub checked: Checked,
+}
+
+/// Parse and check: the same calls as `slopewise check`, with data from the cache.
+pub fn analyze(text: Arc<str>, version: i32, base_dir: &Path, data: &dyn DataProvider) -> Analysis {
+    let parsed = syntax::parse(&text);
+    let checked = check::check(&text, &parsed, base_dir, data);
+    Analysis {
+        version,
+        index: LineIndex::new(&text),
+        text,
+        parsed,
+        checked,
+    }
+}
+
+impl Analysis {
+    pub fn column_names(&self) -> Vec<&str> {
+        self.checked
+            .data
+            .as_ref()
+            .map(|d| d.frame.columns().iter().map(|c| c.name.as_str()).collect())
+            .unwrap_or_default()
+    }
+}
+
+/// The symbol index of a parse, with column names from the last analysis.
+pub fn symbols(parsed: &Parsed, last: Option<&Analysis>) -> SymbolIndex {
+    let names: Vec<&str> = last.map(|a| a.column_names()).unwrap_or_default();
+    let set: HashSet<&str> = names.into_iter().collect();
+    SymbolIndex::build(parsed, &set)
+}
