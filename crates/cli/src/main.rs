@@ -111,6 +111,13 @@ were. With --check nothing is written: the exit status is 1 if the file would ch
         #[arg(long)]
         check: bool,
     },
+    /// Run the language server on standard input and output (for editors)
+    #[command(
+        long_about = "Run the language server on standard input and output. Editors start \
+this themselves (see editor-support/README.md); it shows the checker's diagnostics as you \
+type, completes statements, columns and options, and shows column summaries on hover."
+    )]
+    Lsp,
     /// Measure the speed of slopewise on generated data
     Bench {
         #[command(subcommand)]
@@ -173,6 +180,7 @@ fn main() -> ExitCode {
             format,
         } => describe_cmd::run(&data, &groups, &missing, format),
         Command::Fmt { file, check } => fmt_cmd::run(&file, check),
+        Command::Lsp => server::run_stdio().map(|()| true),
         Command::Bench {
             what: BenchCommand::Load { rows, keep },
         } => bench::run_load(rows, keep).map(|report| {

@@ -76,7 +76,8 @@ impl Backend {
         let for_loaded = docs.clone();
         let cache = DataCache::new(Arc::new(move |path: PathBuf| {
             for d in lock(&for_loaded).values() {
-                if d.data.as_ref().is_some_and(|(p, _)| *p == path) {
+                // A document not yet checked may be the one waiting for it.
+                if d.data.as_ref().is_none_or(|(p, _)| *p == path) {
                     d.notify.notify_one();
                 }
             }
@@ -89,6 +90,11 @@ impl Backend {
             options,
             polling: AtomicBool::new(false),
         }
+    }
+
+    /// The server's copy of a document's text (tests compare it with the editor's).
+    pub fn document_text(&self, uri: &Uri) -> Option<String> {
+        lock(&self.docs).get(uri).map(|d| d.doc.text.clone())
     }
 
     /// The document's text, index and last analysis, copied out of the lock.
@@ -117,9 +123,9 @@ impl Backend {
                 }) else {
                     break;
                 };
-                let cache = cache.clone();
+                let for_check = cache.clone();
                 let run =
-                    tokio::task::spawn_blocking(move || analyze(text, version, &base, &cache))
+                    tokio::task::spawn_blocking(move || analyze(text, version, &base, &for_check))
                         .await;
                 let a = match run {
                     Ok(a) => Arc::new(a),
@@ -143,6 +149,16 @@ impl Backend {
                         (p, s)
                     });
                     d.last = Some(a.clone());
+                    // The read may have finished between the check and now.
+                    let waiting = a.checked.data.as_ref().is_some_and(|v| !v.complete);
+                    if waiting
+                        && a.checked
+                            .data_path
+                            .as_deref()
+                            .is_some_and(|p| cache.ready(p).is_some())
+                    {
+                        d.notify.notify_one();
+                    }
                 }
                 client
                     .publish_diagnostics(uri.clone(), diags, Some(version))
