@@ -5,9 +5,10 @@ use std::collections::HashSet;
 use std::path::Path;
 use std::sync::Arc;
 
-use check::{Checked, DataProvider};
+use check::{Checked, DataProvider, Diagnostic, ResolvedModel};
 use syntax::{LineIndex, Parsed};
 
+use crate::incremental::UnitCache;
 use crate::index::SymbolIndex;
 
 /// The checker's findings for one version of a document.
@@ -16,19 +17,34 @@ pub struct Analysis {
     pub text: Arc<str>,
     pub index: LineIndex,
     pub parsed: Parsed,
+    /// The checker's last run (data, lets, structure); after a partial run
+    /// its models and diagnostics are only those it was asked to check.
     pub checked: Checked,
+    /// Every diagnostic of the file, sorted by position.
+    pub diagnostics: Vec<Diagnostic>,
+    /// Every model of the file, in order.
+    pub models: Vec<Arc<ResolvedModel>>,
 }
 
-/// Parse and check: the same calls as `slopewise check`, with data from the cache.
-pub fn analyze(text: Arc<str>, version: i32, base_dir: &Path, data: &dyn DataProvider) -> Analysis {
+/// Parse and check with the same checker as `slopewise check`, with data
+/// from the cache, re-checking only the models and requests that changed.
+pub fn analyze(
+    text: Arc<str>,
+    version: i32,
+    base_dir: &Path,
+    data: &dyn DataProvider,
+    units: &mut UnitCache,
+) -> Analysis {
     let parsed = syntax::parse(&text);
-    let checked = check::check(&text, &parsed, base_dir, data);
+    let outcome = crate::incremental::check(&text, &parsed, base_dir, data, units);
     Analysis {
         version,
         index: LineIndex::new(&text),
         text,
         parsed,
-        checked,
+        checked: outcome.checked,
+        diagnostics: outcome.diagnostics,
+        models: outcome.models,
     }
 }
 

@@ -109,6 +109,7 @@ impl Backend {
         let docs = self.docs.clone();
         let cache = self.cache.clone();
         tokio::spawn(async move {
+            let mut units = Some(crate::incremental::UnitCache::default());
             loop {
                 notify.notified().await;
                 if closed.load(Ordering::Acquire) {
@@ -124,11 +125,17 @@ impl Backend {
                     break;
                 };
                 let for_check = cache.clone();
-                let run =
-                    tokio::task::spawn_blocking(move || analyze(text, version, &base, &for_check))
-                        .await;
+                let mut mine = units.take().unwrap_or_default();
+                let run = tokio::task::spawn_blocking(move || {
+                    let a = analyze(text, version, &base, &for_check, &mut mine);
+                    (a, mine)
+                })
+                .await;
                 let a = match run {
-                    Ok(a) => Arc::new(a),
+                    Ok((a, u)) => {
+                        units = Some(u);
+                        Arc::new(a)
+                    }
                     Err(e) => {
                         let msg = format!("slopewise: checking the file failed: {e}");
                         client.log_message(MessageType::ERROR, msg).await;
@@ -136,7 +143,6 @@ impl Backend {
                     }
                 };
                 let diags: Vec<Diagnostic> = a
-                    .checked
                     .diagnostics
                     .iter()
                     .map(|d| convert::diagnostic(&a.text, &a.index, d))
@@ -548,7 +554,7 @@ impl LanguageServer for Backend {
         let lo = doc.offset(convert::line_col(params.range.start));
         let hi = doc.offset(convert::line_col(params.range.end));
         let mut out = Vec::new();
-        for d in &a.checked.diagnostics {
+        for d in &a.diagnostics {
             let Some(fix) = &d.fix else { continue };
             if d.span.end < lo || d.span.start > hi {
                 continue;

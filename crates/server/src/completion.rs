@@ -539,7 +539,7 @@ fn focal(src: &Sources<'_>, model: &str, out: &mut Vec<lsp::CompletionItem>) {
     let mut seen = Vec::new();
     if let Some(m) = src
         .last
-        .and_then(|a| a.checked.models.iter().find(|m| m.name == model))
+        .and_then(|a| a.models.iter().find(|m| m.name == model))
     {
         for t in &m.terms {
             for f in &t.factors {

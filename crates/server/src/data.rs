@@ -106,12 +106,6 @@ impl DataCache {
 impl DataProvider for DataCache {
     fn load(&self, path: &Path, options: &ReadOptions) -> Result<DataView, ReadError> {
         let meta = std::fs::metadata(path).map_err(|e| io_error(path, e))?;
-        if !meta.is_file() {
-            return Err(ReadError::Io {
-                path: path.to_path_buf(),
-                message: "it is a folder, not a file".into(),
-            });
-        }
         let stamp = Stamp {
             len: meta.len(),
             modified: meta.modified().ok(),

@@ -48,7 +48,7 @@ fn let_def(name: &str, parsed: &Parsed, text: &str, last: Option<&Analysis>) -> 
 }
 
 fn model(name: &str, last: Option<&Analysis>) -> Option<String> {
-    let m = last?.checked.models.iter().find(|m| m.name == name)?;
+    let m = last?.models.iter().find(|m| m.name == name)?;
     let kind = match m.kind {
         check::Kind::Ols => "least squares",
         check::Kind::Within => "fixed effects (within)",

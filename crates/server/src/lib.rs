@@ -13,6 +13,7 @@ pub mod convert;
 pub mod data;
 pub mod document;
 pub mod hover;
+pub mod incremental;
 pub mod index;
 pub mod navigate;
 pub mod scan;

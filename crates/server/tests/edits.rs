@@ -121,6 +121,22 @@ proptest! {
             for diag in d["diagnostics"].as_array().unwrap() {
                 assert!(diag["range"]["end"]["line"].as_u64().unwrap() < last_line, "{diag}");
             }
+            // The server re-checks only what changed: the result must be that of
+            // checking the whole final text.
+            let parsed = syntax::parse(&text);
+            let whole = check::check(&text, &parsed, &dir, &check::FileLoader);
+            let got: Vec<(String, String)> = d["diagnostics"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|d| (d["code"].as_str().unwrap().to_string(), d["message"].as_str().unwrap().to_string()))
+                .collect();
+            let want: Vec<(String, String)> = whole
+                .diagnostics
+                .iter()
+                .map(|d| (d.code.to_string(), d.message.clone()))
+                .collect();
+            assert_eq!(got, want, "final text:\n{text}");
             s.request("textDocument/semanticTokens/full", json!({"textDocument": {"uri": uri}})).await;
             s.request("textDocument/formatting", json!({"textDocument": {"uri": uri}, "options": {"tabSize": 2, "insertSpaces": true}})).await;
             assert_eq!(s.backend().document_text(&uri.parse().unwrap()).unwrap(), text);
