@@ -125,7 +125,7 @@ fn session(
     // once the values are in.
     let big =
         std::fs::metadata(Path::new(uri.trim_start_matches("file://")).with_file_name("data.csv"))
-            .map_or(false, |m| m.len() >= server::data::BACKGROUND_MIN_BYTES);
+            .is_ok_and(|m| m.len() >= server::data::BACKGROUND_MIN_BYTES);
     for _ in 0..(1 + usize::from(big)) {
         wait_for(
             messages,
