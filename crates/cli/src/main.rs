@@ -111,6 +111,13 @@ were. With --check nothing is written: the exit status is 1 if the file would ch
         #[arg(long)]
         check: bool,
     },
+    /// Run the language server on standard input and output (for editors)
+    #[command(
+        long_about = "Run the language server on standard input and output. Editors start \
+this themselves (see editor-support/README.md); it shows the checker's diagnostics as you \
+type, completes statements, columns and options, and shows column summaries on hover."
+    )]
+    Lsp,
     /// Measure the speed of slopewise on generated data
     Bench {
         #[command(subcommand)]
@@ -146,6 +153,19 @@ enum BenchCommand {
         #[arg(long)]
         no_baseline: bool,
     },
+    /// Time the language server from keystroke to diagnostics on a 300-line
+    /// model against a large generated CSV, and report its memory
+    Lsp {
+        /// Number of rows to generate
+        #[arg(long, default_value_t = 1_000_000)]
+        rows: usize,
+        /// Number of edits to time
+        #[arg(long, default_value_t = 200)]
+        edits: usize,
+        /// Keep the generated files instead of deleting them
+        #[arg(long)]
+        keep: bool,
+    },
 }
 
 #[derive(Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -173,6 +193,7 @@ fn main() -> ExitCode {
             format,
         } => describe_cmd::run(&data, &groups, &missing, format),
         Command::Fmt { file, check } => fmt_cmd::run(&file, check),
+        Command::Lsp => server::run_stdio().map(|()| true),
         Command::Bench {
             what: BenchCommand::Load { rows, keep },
         } => bench::run_load(rows, keep).map(|report| {
@@ -188,6 +209,12 @@ fn main() -> ExitCode {
                     no_baseline,
                 },
         } => bench::run_fe(units, periods, keep, !no_baseline).map(|_| true),
+        Command::Bench {
+            what: BenchCommand::Lsp { rows, edits, keep },
+        } => bench::run_lsp(rows, edits, keep).map(|report| {
+            print!("{report}");
+            true
+        }),
     };
     match result {
         Ok(true) => ExitCode::SUCCESS,

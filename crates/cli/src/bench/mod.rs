@@ -3,6 +3,8 @@
 
 pub mod fe;
 pub mod load;
+pub mod lsp;
 
 pub use fe::run_fe;
 pub use load::run_load;
+pub use lsp::run_lsp;
