@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{root, slopewise, text};
+use common::{curve_model, slopewise, text};
 use resvg::tiny_skia::{Pixmap, Transform};
 use resvg::usvg;
 
@@ -40,20 +40,11 @@ fn the_three_figure_kinds_are_written_and_render() {
     let file = dir.join("figures.slope");
     std::fs::write(
         &file,
-        format!(
-            r#"source "{}"
-panel firm over year
-model shape {{
-  uptime = suppliers + suppliers^2 + digital + suppliers * digital + suppliers^2 * digital + log(staff)
-  fixed firm, year
-  errors cluster firm
-}}
-plot shape: suppliers across digital at p10, p50, p90 to "lines.svg"
+        curve_model()
+            + r#"plot shape: suppliers across digital at p10, p50, p90 to "lines.svg"
 plot shape: suppliers across digital to "band.svg"
 plot shape: suppliers to "curve.svg"
 "#,
-            root().join("demo-data/suppliers.csv").display()
-        ),
     )
     .unwrap();
     let out = slopewise(&["fit", file.to_str().unwrap()]);

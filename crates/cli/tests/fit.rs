@@ -6,7 +6,7 @@
 
 mod common;
 
-use common::{root, slopewise, text};
+use common::{curve_model, root, slopewise, text};
 
 #[test]
 fn the_panel_demo_fits_and_the_json_follows_the_design() {
@@ -209,16 +209,8 @@ fn probing_file(tag: &str) -> std::path::PathBuf {
     let dir = std::env::temp_dir().join(format!("slopewise-probe-{tag}-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(dir.join("blocked.svg")).unwrap();
-    let csv = root().join("demo-data/suppliers.csv");
-    let text = format!(
-        r#"source "{}"
-panel firm over year
-model shape {{
-  uptime = suppliers + suppliers^2 + digital + suppliers * digital + suppliers^2 * digital + log(staff)
-  fixed firm, year
-  errors cluster firm
-}}
-probe shape: suppliers across digital at p10, mean, +1sd bootstrap 30 seed 7
+    let text = curve_model()
+        + r#"probe shape: suppliers across digital at p10, mean, +1sd bootstrap 30 seed 7
 regions shape: suppliers across digital alpha 0.05
 turning shape: suppliers
 turning shape: suppliers across digital at p10, p90
@@ -227,9 +219,7 @@ plot shape: suppliers to "blocked.svg"
 plot shape: suppliers across digital at p10, p50, p90 to "lines.svg"
 plot shape: suppliers across digital to "band.svg"
 plot shape: suppliers to "curve.svg"
-"#,
-        csv.display()
-    );
+"#;
     std::fs::write(dir.join("probing.slope"), text).unwrap();
     dir
 }

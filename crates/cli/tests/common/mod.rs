@@ -20,3 +20,20 @@ pub fn slopewise(args: &[&str]) -> Output {
 pub fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
 }
+
+/// The head of a model file with the panel demo's curve model `shape` (a
+/// square in suppliers, both terms times digital); probing statements follow.
+#[allow(dead_code)] // not every test file probes
+pub fn curve_model() -> String {
+    format!(
+        r#"source "{}"
+panel firm over year
+model shape {{
+  uptime = suppliers + suppliers^2 + digital + suppliers * digital + suppliers^2 * digital + log(staff)
+  fixed firm, year
+  errors cluster firm
+}}
+"#,
+        root().join("demo-data/suppliers.csv").display()
+    )
+}
