@@ -53,6 +53,14 @@ struct DocState {
 
 type Docs = Arc<Mutex<HashMap<Uri, DocState>>>;
 
+/// A document, its last analysis, its tree and the names in it.
+struct Indexed {
+    doc: Document,
+    last: Option<Arc<Analysis>>,
+    parsed: syntax::Parsed,
+    index: crate::index::SymbolIndex,
+}
+
 pub struct Backend {
     client: Client,
     docs: Docs,
@@ -102,6 +110,20 @@ impl Backend {
         let docs = lock(&self.docs);
         let d = docs.get(uri)?;
         Some((d.doc.clone(), d.last.clone(), d.base_dir.clone()))
+    }
+
+    /// The document with its tree and the index of names in it: what every
+    /// navigation request starts from.
+    fn indexed(&self, uri: &Uri) -> Option<Indexed> {
+        let (doc, last, _) = self.snapshot(uri)?;
+        let parsed = syntax::parse(&doc.text);
+        let index = symbols(&parsed, last.as_deref());
+        Some(Indexed {
+            doc,
+            last,
+            parsed,
+            index,
+        })
     }
 
     fn spawn_worker(&self, uri: Uri, notify: Arc<Notify>, closed: Arc<AtomicBool>) {
@@ -356,12 +378,16 @@ impl LanguageServer for Backend {
 
     async fn hover(&self, params: HoverParams) -> Result<Option<Hover>> {
         let pos = params.text_document_position_params;
-        let Some((doc, last, _)) = self.snapshot(&pos.text_document.uri) else {
+        let Some(Indexed {
+            doc,
+            last,
+            parsed,
+            index,
+        }) = self.indexed(&pos.text_document.uri)
+        else {
             return Ok(None);
         };
         let offset = doc.offset(convert::line_col(pos.position));
-        let parsed = syntax::parse(&doc.text);
-        let index = symbols(&parsed, last.as_deref());
         let Some(occ) = index.at(offset) else {
             return Ok(None);
         };
@@ -391,11 +417,9 @@ impl LanguageServer for Backend {
     ) -> Result<Option<GotoDefinitionResponse>> {
         let pos = params.text_document_position_params;
         let uri = pos.text_document.uri;
-        let Some((doc, last, _)) = self.snapshot(&uri) else {
+        let Some(Indexed { doc, index, .. }) = self.indexed(&uri) else {
             return Ok(None);
         };
-        let parsed = syntax::parse(&doc.text);
-        let index = symbols(&parsed, last.as_deref());
         let offset = doc.offset(convert::line_col(pos.position));
         Ok(navigate::definition(&index, offset).map(|span| {
             GotoDefinitionResponse::Scalar(Location::new(uri.clone(), to_range(&doc, span)))
@@ -405,11 +429,9 @@ impl LanguageServer for Backend {
     async fn references(&self, params: ReferenceParams) -> Result<Option<Vec<Location>>> {
         let pos = params.text_document_position;
         let uri = pos.text_document.uri;
-        let Some((doc, last, _)) = self.snapshot(&uri) else {
+        let Some(Indexed { doc, index, .. }) = self.indexed(&uri) else {
             return Ok(None);
         };
-        let parsed = syntax::parse(&doc.text);
-        let index = symbols(&parsed, last.as_deref());
         let offset = doc.offset(convert::line_col(pos.position));
         let spans = navigate::references(&index, offset, params.context.include_declaration);
         Ok(Some(
@@ -424,11 +446,9 @@ impl LanguageServer for Backend {
         &self,
         params: TextDocumentPositionParams,
     ) -> Result<Option<PrepareRenameResponse>> {
-        let Some((doc, last, _)) = self.snapshot(&params.text_document.uri) else {
+        let Some(Indexed { doc, index, .. }) = self.indexed(&params.text_document.uri) else {
             return Ok(None);
         };
-        let parsed = syntax::parse(&doc.text);
-        let index = symbols(&parsed, last.as_deref());
         let offset = doc.offset(convert::line_col(params.position));
         match navigate::prepare_rename(&index, offset) {
             Ok(span) => Ok(Some(PrepareRenameResponse::Range(to_range(&doc, span)))),
@@ -439,11 +459,12 @@ impl LanguageServer for Backend {
     async fn rename(&self, params: RenameParams) -> Result<Option<WorkspaceEdit>> {
         let pos = params.text_document_position;
         let uri = pos.text_document.uri;
-        let Some((doc, last, _)) = self.snapshot(&uri) else {
+        let Some(Indexed {
+            doc, last, index, ..
+        }) = self.indexed(&uri)
+        else {
             return Ok(None);
         };
-        let parsed = syntax::parse(&doc.text);
-        let index = symbols(&parsed, last.as_deref());
         let offset = doc.offset(convert::line_col(pos.position));
         let columns = last
             .as_deref()
@@ -510,11 +531,9 @@ impl LanguageServer for Backend {
         &self,
         params: SemanticTokensParams,
     ) -> Result<Option<SemanticTokensResult>> {
-        let Some((doc, last, _)) = self.snapshot(&params.text_document.uri) else {
+        let Some(Indexed { doc, index, .. }) = self.indexed(&params.text_document.uri) else {
             return Ok(None);
         };
-        let parsed = syntax::parse(&doc.text);
-        let index = symbols(&parsed, last.as_deref());
         let mut data = Vec::new();
         let (mut line, mut col) = (0u32, 0u32);
         for t in crate::tokens::tokens(&doc.text, &index) {
