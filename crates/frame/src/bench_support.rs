@@ -27,18 +27,28 @@ const SECTORS: [&str; 12] = [
 ];
 
 /// A small deterministic generator (xorshift64*), so that every run and every
-/// machine measures the same bytes.
-struct Rng(u64);
+/// machine measures the same bytes; shared by the benchmarks' data generators.
+pub struct Rng(pub u64);
 
 impl Rng {
-    fn next(&mut self) -> u64 {
+    pub fn next_u64(&mut self) -> u64 {
         self.0 ^= self.0 >> 12;
         self.0 ^= self.0 << 25;
         self.0 ^= self.0 >> 27;
         self.0.wrapping_mul(0x2545_f491_4f6c_dd1d)
     }
-    fn below(&mut self, n: u64) -> u64 {
-        self.next() % n.max(1)
+    pub fn below(&mut self, n: u64) -> u64 {
+        self.next_u64() % n.max(1)
+    }
+    /// Uniform on [0, 1) from the top 53 bits.
+    pub fn uniform(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+    }
+    /// Standard normal by Box–Muller.
+    pub fn normal(&mut self) -> f64 {
+        let u = self.uniform().max(1e-300);
+        let v = self.uniform();
+        (-2.0 * u.ln()).sqrt() * (std::f64::consts::TAU * v).cos()
     }
 }
 

@@ -10,6 +10,7 @@ use std::sync::Arc;
 use std::time::Instant;
 
 use check::{DataProvider, DataView};
+use frame::bench_support::Rng;
 use frame::{ReadError, ReadOptions};
 
 const NUMPY_SCRIPT: &str = include_str!("../../../../tests/bench/fe_numpy.py");
@@ -23,28 +24,6 @@ impl DataProvider for Loaded {
             frame: self.0.clone(),
             complete: true,
         })
-    }
-}
-
-/// A small deterministic generator (xorshift64*), so the file is the same on
-/// every machine without a dependency.
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 ^= self.0 >> 12;
-        self.0 ^= self.0 << 25;
-        self.0 ^= self.0 >> 27;
-        self.0.wrapping_mul(0x2545_F491_4F6C_DD1D)
-    }
-    fn uniform(&mut self) -> f64 {
-        (self.next() >> 11) as f64 / (1u64 << 53) as f64
-    }
-    /// Standard normal by Box–Muller.
-    fn normal(&mut self) -> f64 {
-        let u = self.uniform().max(1e-300);
-        let v = self.uniform();
-        (-2.0 * u.ln()).sqrt() * (std::f64::consts::TAU * v).cos()
     }
 }
 
