@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{root, slopewise, text};
+use common::{slopewise, text};
 
 #[test]
 fn demo_files_check_clean_and_show_how_they_were_understood() {
@@ -77,33 +77,7 @@ fn json_diagnostics_follow_the_documented_shape() {
 
 #[test]
 fn every_bad_input_file_runs_through_the_binary_without_a_crash() {
-    let dir = root().join("tests/bad-input");
-    for entry in std::fs::read_dir(dir).unwrap() {
-        let p = entry.unwrap().path();
-        if p.extension().is_none_or(|e| e != "slope") {
-            continue;
-        }
-        let rel = p
-            .strip_prefix(root())
-            .unwrap()
-            .to_str()
-            .unwrap()
-            .to_string();
-        for format in ["text", "json"] {
-            let out = slopewise(&["check", &rel, "--format", format]);
-            let code = out.status.code();
-            assert!(
-                matches!(code, Some(0) | Some(1)),
-                "{rel} {format}: exit {code:?}\n{}",
-                text(&out.stderr)
-            );
-            assert!(
-                !text(&out.stderr).contains("panicked"),
-                "{rel}: {}",
-                text(&out.stderr)
-            );
-        }
-    }
+    common::each_bad_input_exits_cleanly("check", &["text", "json"]);
 }
 
 #[test]

@@ -174,32 +174,7 @@ fn estimation_errors_name_the_terms_and_exit_1() {
 
 #[test]
 fn every_bad_input_file_runs_through_fit_without_a_crash() {
-    for entry in std::fs::read_dir(root().join("tests/bad-input")).unwrap() {
-        let p = entry.unwrap().path();
-        if p.extension().is_none_or(|e| e != "slope") {
-            continue;
-        }
-        let rel = p
-            .strip_prefix(root())
-            .unwrap()
-            .to_str()
-            .unwrap()
-            .to_string();
-        for format in ["text", "json", "markdown"] {
-            let out = slopewise(&["fit", &rel, "--format", format]);
-            let code = out.status.code();
-            assert!(
-                matches!(code, Some(0) | Some(1)),
-                "{rel} {format}: exit {code:?}\n{}",
-                text(&out.stderr)
-            );
-            assert!(
-                !text(&out.stderr).contains("panicked"),
-                "{rel}: {}",
-                text(&out.stderr)
-            );
-        }
-    }
+    common::each_bad_input_exits_cleanly("fit", &["text", "json", "markdown"]);
 }
 
 /// A model file in a fresh folder that asks every probing statement of the

@@ -37,3 +37,36 @@ model shape {{
         root().join("demo-data/suppliers.csv").display()
     )
 }
+
+/// Run `slopewise COMMAND FILE --format F` on every file of `tests/bad-input`
+/// in each format: the exit status is 0 or 1 (never a crash or a usage
+/// error) and nothing panics.
+#[allow(dead_code)] // not every test file runs the bad inputs
+pub fn each_bad_input_exits_cleanly(command: &str, formats: &[&str]) {
+    for entry in std::fs::read_dir(root().join("tests/bad-input")).unwrap() {
+        let p = entry.unwrap().path();
+        if p.extension().is_none_or(|e| e != "slope") {
+            continue;
+        }
+        let rel = p
+            .strip_prefix(root())
+            .unwrap()
+            .to_str()
+            .unwrap()
+            .to_string();
+        for format in formats {
+            let out = slopewise(&[command, &rel, "--format", format]);
+            let code = out.status.code();
+            assert!(
+                matches!(code, Some(0) | Some(1)),
+                "{rel} {format}: exit {code:?}\n{}",
+                text(&out.stderr)
+            );
+            assert!(
+                !text(&out.stderr).contains("panicked"),
+                "{rel}: {}",
+                text(&out.stderr)
+            );
+        }
+    }
+}
