@@ -9,6 +9,7 @@ use syntax::Span;
 
 use crate::diagnostic::Diagnostic;
 use crate::eval::{Evaluator, PanelIndex};
+use crate::facts::{Facts, PanelKey};
 use crate::value::{Ty, Value};
 
 /// The data behind the file, as far as it is known.
@@ -19,6 +20,21 @@ pub struct DataView {
     /// shows name diagnostics before a large file is loaded): checks that need
     /// values are skipped.
     pub complete: bool,
+    /// What the checker learnt about values over this frame, kept for the
+    /// next check of the same data (see [`Facts`]).
+    pub facts: Arc<Facts>,
+}
+
+impl DataView {
+    /// A view with an empty cache of facts: hand out clones of one view for
+    /// as long as the frame is the same, so that its facts are reused.
+    pub fn new(frame: Arc<Frame>, complete: bool) -> DataView {
+        DataView {
+            facts: Arc::new(Facts::new(frame.n_rows())),
+            frame,
+            complete,
+        }
+    }
 }
 
 /// A `let` definition.
@@ -44,7 +60,7 @@ pub(crate) struct Ctx<'a> {
     /// before the definition from an unknown name.
     pub let_positions: HashMap<String, usize>,
     pub panel: Option<(usize, usize)>,
-    pub panel_index: Option<PanelIndex>,
+    pub panel_index: Option<Arc<PanelIndex>>,
 }
 
 impl<'a> Ctx<'a> {
@@ -62,7 +78,14 @@ impl<'a> Ctx<'a> {
 
     pub fn evaluator(&self) -> Option<Evaluator<'_>> {
         self.values()
-            .map(|f| Evaluator::new(f, self.panel_index.as_ref()))
+            .map(|f| Evaluator::new(f, self.panel_index.as_deref()))
+    }
+
+    /// The evaluator with the frame's cache of facts and the panel that
+    /// shifted values follow: what every pass over the rows goes through.
+    pub fn facts(&self) -> Option<(Evaluator<'_>, Arc<Facts>, PanelKey)> {
+        let d = self.data.as_ref().filter(|d| d.complete)?;
+        Some((self.evaluator()?, d.facts.clone(), self.panel))
     }
 
     pub fn column_names(&self) -> Vec<&str> {

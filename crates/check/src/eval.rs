@@ -4,6 +4,7 @@
 //! zero, the log of zero) is missing too. Each operation is one pass over whole
 //! columns, with no allocation per row.
 
+use std::borrow::Cow;
 use std::sync::Arc;
 
 use frame::{ColumnData, Frame, GroupIndex, MISSING_CODE};
@@ -172,14 +173,15 @@ impl<'a> Evaluator<'a> {
     }
 
     /// The values that enter a statistic: outside the sample they count as missing.
-    fn for_stats(&self, x: &[f64]) -> Vec<f64> {
+    fn for_stats<'x>(&self, x: &'x [f64]) -> Cow<'x, [f64]> {
         match self.sample {
-            None => x.to_vec(),
-            Some(s) => x
-                .iter()
-                .zip(s)
-                .map(|(&v, &k)| if k { v } else { f64::NAN })
-                .collect(),
+            None => Cow::Borrowed(x),
+            Some(s) => Cow::Owned(
+                x.iter()
+                    .zip(s)
+                    .map(|(&v, &k)| if k { v } else { f64::NAN })
+                    .collect(),
+            ),
         }
     }
 
@@ -204,8 +206,8 @@ impl<'a> Evaluator<'a> {
             },
             Value::Number(x) => Evaluated::Scalar(*x),
             Value::Text(s) => Evaluated::Text(s.clone()),
-            Value::Neg(x) => map(self.numbers(x), |v| -v),
-            Value::Not(x) => map(self.numbers(x), |v| {
+            Value::Neg(x) => map(self.numbers_cow(x), |v| -v),
+            Value::Not(x) => map(self.numbers_cow(x), |v| {
                 if v.is_nan() {
                     v
                 } else {
@@ -218,22 +220,28 @@ impl<'a> Evaluator<'a> {
                 self.by_group(x, *g, |v, mean| if v.is_nan() { v } else { mean })
             }
             Value::Center(x) => {
-                let x = self.numbers(x);
+                let x = self.numbers_cow(x);
                 let (mean, _) = mean_sd(&self.for_stats(&x));
                 Evaluated::Numbers(x.iter().map(|v| v - mean).collect())
             }
             Value::Z(x) => {
-                let x = self.numbers(x);
+                let x = self.numbers_cow(x);
                 let (mean, sd) = mean_sd(&self.for_stats(&x));
                 Evaluated::Numbers(x.iter().map(|v| finite((v - mean) / sd)).collect())
             }
-            Value::Log(x) => map(self.numbers(x), |v| if v > 0.0 { v.ln() } else { f64::NAN }),
-            Value::Sqrt(x) => map(
-                self.numbers(x),
-                |v| if v >= 0.0 { v.sqrt() } else { f64::NAN },
+            Value::Log(x) => map(
+                self.numbers_cow(x),
+                |v| if v > 0.0 { v.ln() } else { f64::NAN },
             ),
+            Value::Sqrt(x) => map(self.numbers_cow(x), |v| {
+                if v >= 0.0 {
+                    v.sqrt()
+                } else {
+                    f64::NAN
+                }
+            }),
             Value::Shift { x, k, diff } => {
-                let x = self.numbers(x);
+                let x = self.numbers_cow(x);
                 let Some(panel) = self.panel else {
                     return Evaluated::Numbers(vec![f64::NAN; n]);
                 };
@@ -253,7 +261,7 @@ impl<'a> Evaluator<'a> {
 
     /// Combine each row's value with its group's mean; missing where the id is.
     fn by_group(&self, x: &Value, group: usize, f: impl Fn(f64, f64) -> f64) -> Evaluated {
-        let x = self.numbers(x);
+        let x = self.numbers_cow(x);
         let g = self.group(group);
         let means = g.means(&self.for_stats(&x));
         Evaluated::Numbers(
@@ -275,44 +283,86 @@ impl<'a> Evaluator<'a> {
         self.eval(value).into_numbers(self.n())
     }
 
+    /// As [`Evaluator::numbers`], borrowing a numeric column instead of
+    /// copying it: most values are a column or a function of one, and a copy
+    /// of a million-row column is most of the cost of checking a term.
+    pub fn numbers_cow(&self, value: &Value) -> Cow<'a, [f64]> {
+        if let Value::Column(c) = value {
+            if let ColumnData::Numeric(col) = &self.frame.columns()[*c].data {
+                return Cow::Borrowed(&col.values);
+            }
+        }
+        Cow::Owned(self.numbers(value))
+    }
+
     fn binary(&self, op: BinaryOp, a: &Value, b: &Value) -> Evaluated {
         let n = self.n();
-        let (ea, eb) = (self.eval(a), self.eval(b));
+        let operand = |v: &Value| match v {
+            Value::Column(c) if self.frame.columns()[*c].as_numeric().is_some() => None,
+            other => Some(self.eval(other)),
+        };
+        let (ea, eb) = (operand(a), operand(b));
+        // Numeric columns are read in place rather than copied.
+        let (ea, eb) = match (ea, eb) {
+            (Some(ea), Some(eb)) => (ea, eb),
+            (ea, eb) => {
+                let g = arithmetic(op);
+                return match (ea, eb) {
+                    (None, Some(Evaluated::Scalar(y))) => map(self.numbers_cow(a), |x| g(x, y)),
+                    (Some(Evaluated::Scalar(x)), None) => map(self.numbers_cow(b), |y| g(x, y)),
+                    (ea, eb) => {
+                        let side = |e: Option<Evaluated>, v: &Value| {
+                            e.map_or_else(|| self.numbers_cow(v), |e| Cow::Owned(e.into_numbers(n)))
+                        };
+                        let (xa, xb) = (side(ea, a), side(eb, b));
+                        Evaluated::Numbers(
+                            xa.iter().zip(xb.iter()).map(|(&x, &y)| g(x, y)).collect(),
+                        )
+                    }
+                };
+            }
+        };
         if matches!(op, BinaryOp::Eq | BinaryOp::Ne) {
             if let Some(r) = compare_levels(op, &ea, &eb).or_else(|| compare_levels(op, &eb, &ea)) {
                 return r;
             }
         }
-        let f: fn(f64, f64) -> f64 = match op {
-            BinaryOp::Add => |x, y| x + y,
-            BinaryOp::Sub => |x, y| x - y,
-            BinaryOp::Mul => |x, y| x * y,
-            BinaryOp::Div => |x, y| x / y,
-            BinaryOp::Pow => f64::powf,
-            BinaryOp::Eq => |x, y| f64::from(x == y),
-            BinaryOp::Ne => |x, y| f64::from(x != y),
-            BinaryOp::Lt => |x, y| f64::from(x < y),
-            BinaryOp::Le => |x, y| f64::from(x <= y),
-            BinaryOp::Gt => |x, y| f64::from(x > y),
-            BinaryOp::Ge => |x, y| f64::from(x >= y),
-            BinaryOp::And => |x, y| f64::from(x != 0.0 && y != 0.0),
-            BinaryOp::Or => |x, y| f64::from(x != 0.0 || y != 0.0),
-        };
-        let g = move |x: f64, y: f64| {
-            if x.is_nan() || y.is_nan() {
-                f64::NAN
-            } else {
-                finite(f(x, y))
-            }
-        };
+        let g = arithmetic(op);
         match (ea, eb) {
             (Evaluated::Scalar(x), Evaluated::Scalar(y)) => Evaluated::Scalar(g(x, y)),
-            (Evaluated::Scalar(x), other) => map(other.to_numbers(n), |y| g(x, y)),
-            (other, Evaluated::Scalar(y)) => map(other.to_numbers(n), |x| g(x, y)),
+            (Evaluated::Scalar(x), other) => map(Cow::Owned(other.into_numbers(n)), |y| g(x, y)),
+            (other, Evaluated::Scalar(y)) => map(Cow::Owned(other.into_numbers(n)), |x| g(x, y)),
             (a, b) => {
-                let (a, b) = (a.to_numbers(n), b.to_numbers(n));
+                let (a, b) = (a.into_numbers(n), b.into_numbers(n));
                 Evaluated::Numbers(a.iter().zip(&b).map(|(&x, &y)| g(x, y)).collect())
             }
+        }
+    }
+}
+
+/// A binary operator on two numbers: missing when either is, and when the
+/// result is not finite.
+fn arithmetic(op: BinaryOp) -> impl Fn(f64, f64) -> f64 {
+    let f: fn(f64, f64) -> f64 = match op {
+        BinaryOp::Add => |x, y| x + y,
+        BinaryOp::Sub => |x, y| x - y,
+        BinaryOp::Mul => |x, y| x * y,
+        BinaryOp::Div => |x, y| x / y,
+        BinaryOp::Pow => f64::powf,
+        BinaryOp::Eq => |x, y| f64::from(x == y),
+        BinaryOp::Ne => |x, y| f64::from(x != y),
+        BinaryOp::Lt => |x, y| f64::from(x < y),
+        BinaryOp::Le => |x, y| f64::from(x <= y),
+        BinaryOp::Gt => |x, y| f64::from(x > y),
+        BinaryOp::Ge => |x, y| f64::from(x >= y),
+        BinaryOp::And => |x, y| f64::from(x != 0.0 && y != 0.0),
+        BinaryOp::Or => |x, y| f64::from(x != 0.0 || y != 0.0),
+    };
+    move |x: f64, y: f64| {
+        if x.is_nan() || y.is_nan() {
+            f64::NAN
+        } else {
+            finite(f(x, y))
         }
     }
 }
@@ -337,11 +387,17 @@ fn compare_levels(op: BinaryOp, cat: &Evaluated, text: &Evaluated) -> Option<Eva
     ))
 }
 
-fn map(mut v: Vec<f64>, f: impl Fn(f64) -> f64) -> Evaluated {
-    for x in v.iter_mut() {
-        *x = finite(f(*x));
-    }
-    Evaluated::Numbers(v)
+/// Apply `f` to every value, in place when the values are owned.
+fn map(v: Cow<'_, [f64]>, f: impl Fn(f64) -> f64) -> Evaluated {
+    Evaluated::Numbers(match v {
+        Cow::Owned(mut v) => {
+            for x in v.iter_mut() {
+                *x = finite(f(*x));
+            }
+            v
+        }
+        Cow::Borrowed(v) => v.iter().map(|&x| finite(f(x))).collect(),
+    })
 }
 
 fn finite(x: f64) -> f64 {

@@ -10,6 +10,7 @@
 mod context;
 mod diagnostic;
 mod eval;
+mod facts;
 mod model;
 mod request;
 mod resolve;
@@ -19,6 +20,7 @@ mod value;
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
 
 use frame::{ReadError, ReadOptions};
 use syntax::ast::StmtKind;
@@ -27,6 +29,7 @@ use syntax::Parsed;
 pub use context::{count, label_of, DataView, LetDef};
 pub use diagnostic::{codes, Diagnostic, Edit, Fix, Severity};
 pub use eval::{format_number, mean_sd, Evaluated, Evaluator, PanelIndex};
+pub use facts::Facts;
 pub use model::{
     DfMethod, ErrorsKind, Grouping, Kind, Method, RandomEffects, ResolvedFactor, ResolvedModel,
     ResolvedTerm, RowAccount,
@@ -57,7 +60,7 @@ pub struct Checked {
     /// Unit and time columns of `panel`.
     pub panel: Option<(usize, usize)>,
     /// Rows ordered by unit and time, for evaluating `lag`, `lead` and `diff`.
-    pub panel_index: Option<PanelIndex>,
+    pub panel_index: Option<Arc<PanelIndex>>,
     pub models: Vec<ResolvedModel>,
     pub requests: Vec<Request>,
     pub comparisons: Vec<Comparison>,

@@ -1,13 +1,16 @@
 //! Checking one `model { ... }` block and resolving it for the engine.
 
 use std::collections::BTreeMap;
+use std::sync::Arc;
+
+use frame::Mask;
 
 use syntax::ast::{Atom, Expr, ExprKind, Factor, Ident, Model, ModelStmtKind, Term, VaryEffect};
 use syntax::Span;
 
 use crate::context::{count, Ctx};
 use crate::diagnostic::{codes, Diagnostic, Edit};
-use crate::eval::Evaluated;
+use crate::facts::Sample;
 use crate::resolve::{plural, quote_name};
 use crate::suggest::nearest;
 use crate::value::{Ty, Value};
@@ -142,8 +145,9 @@ pub struct RowAccount {
     /// For each variable (term factor, outcome or grouping label) the rows it is missing in.
     pub missing_by: Vec<(String, usize)>,
     pub used: usize,
-    /// One flag per row of the data: in the estimation sample.
-    pub sample: Vec<bool>,
+    /// The rows of the data in the estimation sample (set = used). Shared by
+    /// the models that use the same rows.
+    pub sample: Arc<Mask>,
 }
 
 #[derive(Default)]
@@ -262,10 +266,15 @@ impl Ctx<'_> {
             valid: true,
         };
         if self.values().is_some() && self.error_count() == errors_before {
-            self.check_rows(&mut resolved, structure);
-            if let Some(rows) = resolved.rows.as_ref().filter(|r| r.used > 0) {
-                let sample = rows.sample.clone();
-                self.check_variation(&mut resolved, &sample, structure, body.formula.map(|f| f.1));
+            if let Some(sample) = self.check_rows(&mut resolved) {
+                if sample.rows.count() > 0 {
+                    self.check_variation(
+                        &mut resolved,
+                        &sample,
+                        structure,
+                        body.formula.map(|f| f.1),
+                    );
+                }
             }
         }
         resolved.valid = self.error_count() == errors_before;
@@ -592,17 +601,17 @@ impl Ctx<'_> {
     }
 
     /// Apply `where` and listwise deletion; record what was lost and why.
-    fn check_rows(&mut self, m: &mut ResolvedModel, structure: &[usize]) {
-        let Some(ev) = self.evaluator() else { return };
+    /// Returns the estimation sample (`None` without the data's values).
+    fn check_rows(&mut self, m: &mut ResolvedModel) -> Option<Sample> {
+        let (ev, facts, panel) = self.facts()?;
         let n = ev.n();
-        let mut keep = vec![true; n];
+        let mut keep = Mask::full(n);
         for f in &m.filters {
-            let v = ev.numbers(f);
-            for (k, x) in keep.iter_mut().zip(&v) {
-                *k &= !x.is_nan() && *x != 0.0;
+            if let Some(k) = facts.kept(&ev, panel, f) {
+                keep.and_assign(&k);
             }
         }
-        let after_where = keep.iter().filter(|k| **k).count();
+        let after_where = keep.count();
         let mut vars: Vec<(String, Value, Span)> = Vec::new();
         if let Some(o) = &m.outcome {
             vars.push((o.label.clone(), o.value.clone(), o.span));
@@ -628,19 +637,15 @@ impl Ctx<'_> {
                 vars.push((g.name.clone(), Value::Column(g.column), g.span));
             }
         }
-        let _ = structure;
         let mut sample = keep.clone();
         let mut missing_by = Vec::new();
         let mut empty = Vec::new();
         for (label, value, span) in &vars {
-            let missing = missing_rows(&ev.eval(value), n);
-            let mut c = 0;
-            for r in 0..n {
-                if keep[r] && missing[r] {
-                    c += 1;
-                    sample[r] = false;
-                }
-            }
+            let Some(missing) = facts.missing(&ev, panel, value) else {
+                continue;
+            };
+            let c = keep.count_and(&missing);
+            sample.and_not_assign(&missing);
             if c > 0 {
                 missing_by.push((label.clone(), c));
             }
@@ -660,14 +665,15 @@ impl Ctx<'_> {
             );
             self.push(Diagnostic::error(codes::ALL_MISSING, *span, msg));
         }
-        let used = sample.iter().filter(|k| **k).count();
+        let used = sample.count();
+        let sample = facts.sample(sample);
         let rows = RowAccount {
             total: n,
             excluded_by_where: n - after_where,
             dropped_missing: after_where - used,
             missing_by,
             used,
-            sample,
+            sample: sample.rows.clone(),
         };
         if n > 0 && after_where == 0 {
             let msg = format!(
@@ -724,17 +730,20 @@ impl Ctx<'_> {
             self.push(d);
         }
         m.rows = Some(rows);
+        Some(sample)
     }
 
     /// Variation of every term within the groupings that matter, on the sample.
     fn check_variation(
         &mut self,
         m: &mut ResolvedModel,
-        sample: &[bool],
+        sample: &Sample,
         structure: &[usize],
         formula: Option<&[Term]>,
     ) {
-        let Some(ev) = self.evaluator() else { return };
+        let Some((ev, facts, panel)) = self.facts() else {
+            return;
+        };
         let frame = ev.frame;
         let mut groupings: Vec<(String, usize)> = Vec::new();
         let mut add = |name: &str, col: usize| {
@@ -753,21 +762,15 @@ impl Ctx<'_> {
         {
             add(&g.name, g.column);
         }
-        let masked = |mut v: Vec<f64>| {
-            for (x, &keep) in v.iter_mut().zip(sample) {
-                if !keep {
-                    *x = f64::NAN;
-                }
-            }
-            v
+        let grouping_cols: Vec<usize> = groupings.iter().map(|(_, c)| *c).collect();
+        let variation = |factors: &[(&Value, u32)], within: &[usize]| {
+            facts.variation(&ev, panel, factors, sample, within)
         };
-        let term_values = |t: &ResolvedTerm| masked(product(&ev, &t.factors));
         let mut diags = Vec::new();
 
         // The outcome must vary, or there is nothing to explain.
         if let Some(o) = &m.outcome {
-            let y = masked(ev.numbers(&o.value));
-            if !varies(&y) {
+            if !variation(&[(&o.value, 1)], &[]).varies {
                 let msg = format!(
                     "the outcome `{}` has the same value in every row the model uses",
                     o.label
@@ -777,8 +780,8 @@ impl Ctx<'_> {
         }
         let fixed_cols: Vec<usize> = m.fixed.iter().map(|g| g.column).collect();
         for t in m.terms.iter_mut() {
-            let v = term_values(t);
-            if !varies(&v) {
+            let v = variation(&term_factors(t), &grouping_cols);
+            if !v.varies {
                 let msg = format!(
                     "the term `{}` takes one value in every row the model uses, so it cannot be told apart from the intercept",
                     t.label
@@ -786,8 +789,8 @@ impl Ctx<'_> {
                 diags.push(Diagnostic::warning(codes::CONSTANT, t.span, msg));
                 continue;
             }
-            for (name, col) in &groupings {
-                if ev.group(*col).varies_within(&v) {
+            for ((name, col), varies_within) in groupings.iter().zip(&v.within) {
+                if *varies_within {
                     t.varies_within.push(name.clone());
                 } else if fixed_cols.contains(col) {
                     t.absorbed_by.push(name.clone());
@@ -809,8 +812,7 @@ impl Ctx<'_> {
         for re in &m.random {
             let g = ev.group(re.group.column);
             for s in &re.slopes {
-                let v = term_values(s);
-                if !g.varies_within(&v) {
+                if !variation(&term_factors(s), &[re.group.column]).within[0] {
                     let msg = format!(
                         "`{}` does not vary within `{}` (each {} has one value), so its slope cannot vary across {} groups; remove it from `vary`",
                         s.label, re.group.name, re.group.name, re.group.name
@@ -836,16 +838,7 @@ impl Ctx<'_> {
             }
         }
         for c in &m.cluster {
-            let n_groups = {
-                let g = ev.group(c.column);
-                let mut seen = vec![false; g.n_groups()];
-                for (r, &code) in g.codes.iter().enumerate() {
-                    if sample[r] && code != frame::MISSING_CODE {
-                        seen[code as usize] = true;
-                    }
-                }
-                seen.iter().filter(|s| **s).count()
-            };
+            let n_groups = facts.clusters(&ev, c.column, sample);
             if n_groups < 2 {
                 let msg = format!(
                     "clustering by `{}` needs at least two clusters, but the sample has {n_groups}",
@@ -862,29 +855,21 @@ impl Ctx<'_> {
         }
         let absorbed = |mono: &BTreeMap<String, u32>| -> bool {
             // Would the missing lower-order term be swept out by a fixed grouping?
-            let factors: Vec<(Value, u32)> = mono
+            let factors: Vec<(&Value, u32)> = mono
                 .iter()
                 .filter_map(|(label, p)| {
                     m.terms
                         .iter()
                         .flat_map(|t| t.factors.iter())
                         .find(|f| &canonical_label(f, &fixed_cols) == label)
-                        .map(|f| (f.value.clone(), *p))
+                        .map(|f| (&f.value, *p))
                 })
                 .collect();
-            let mut v = vec![1.0; ev.n()];
-            for (val, p) in &factors {
-                let x = ev.numbers(val);
-                for (a, b) in v.iter_mut().zip(&x) {
-                    *a *= b.powi(*p as i32);
-                }
-            }
-            let v = masked(v);
-            !varies(&v) || fixed_cols.iter().any(|&c| !ev.group(c).varies_within(&v))
+            let v = variation(&factors, &fixed_cols);
+            !v.varies || v.within.iter().any(|w| !w)
         };
         self.lower_order(m, formula, &fixed_cols, &absorbed, &mut diags);
         if let Some(g) = m.fixed.first() {
-            let g_index = ev.group(g.column);
             for t in &m.terms {
                 let plain = t.factors.len() >= 2
                     && t.factors.iter().all(|f| {
@@ -896,7 +881,7 @@ impl Ctx<'_> {
                 let all_vary = t
                     .factors
                     .iter()
-                    .all(|f| g_index.varies_within(&masked(ev.numbers(&f.value))));
+                    .all(|f| variation(&[(&f.value, 1)], &[g.column]).within[0]);
                 if all_vary {
                     let within: Vec<String> = t
                         .factors
@@ -970,37 +955,9 @@ impl Ctx<'_> {
     }
 }
 
-/// Rows where an evaluated value is missing.
-fn missing_rows(e: &Evaluated, n: usize) -> Vec<bool> {
-    match e {
-        Evaluated::Numbers(v) => v.iter().map(|x| x.is_nan()).collect(),
-        Evaluated::Scalar(x) => vec![x.is_nan(); n],
-        Evaluated::Codes { codes, .. } => codes.iter().map(|&c| c == frame::MISSING_CODE).collect(),
-        Evaluated::Text(_) => vec![false; n],
-    }
-}
-
-/// The product of a term's factors, row by row (categories as 1-based codes).
-fn product(ev: &crate::eval::Evaluator<'_>, factors: &[ResolvedFactor]) -> Vec<f64> {
-    let mut v = vec![1.0; ev.n()];
-    for f in factors {
-        let x = ev.numbers(&f.value);
-        for (a, b) in v.iter_mut().zip(&x) {
-            *a *= b.powi(f.power as i32);
-        }
-    }
-    v
-}
-
-/// Whether the non-missing values are not all equal (relative tolerance 1e-10).
-fn varies(v: &[f64]) -> bool {
-    let mut lo = f64::INFINITY;
-    let mut hi = f64::NEG_INFINITY;
-    for &x in v.iter().filter(|x| !x.is_nan()) {
-        lo = lo.min(x);
-        hi = hi.max(x);
-    }
-    hi > lo && (hi - lo) > 1e-10 * hi.abs().max(lo.abs())
+/// A term's factors with their powers, as the cache of facts takes them.
+fn term_factors(t: &ResolvedTerm) -> Vec<(&Value, u32)> {
+    t.factors.iter().map(|f| (&f.value, f.power)).collect()
 }
 
 /// A factor's identity for lower-order checks: under `fixed G`, `within(x, G)` and

@@ -416,17 +416,10 @@ impl Ctx<'_> {
 
     /// Count the rows where `log`/`sqrt` is undefined; they become missing.
     fn check_domain(&mut self, func: &str, x: &Value, arg_span: Span, call_span: Span) {
-        let Some(ev) = self.evaluator() else { return };
-        let values = ev.numbers(x);
-        let bad = |v: f64| if func == "log" { v <= 0.0 } else { v < 0.0 };
-        let mut n_bad = 0;
-        let mut first = None;
-        for (row, &v) in values.iter().enumerate() {
-            if bad(v) {
-                n_bad += 1;
-                first.get_or_insert(row);
-            }
-        }
+        let Some((ev, facts, panel)) = self.facts() else {
+            return;
+        };
+        let (n_bad, first) = facts.domain(&ev, panel, x, func == "log");
         if let Some(row) = first {
             let cond = if func == "log" { "≤ 0" } else { "< 0" };
             let msg = format!(
@@ -442,15 +435,9 @@ impl Ctx<'_> {
     }
 
     /// The levels a categorical value will have, when known without evaluating more than a column.
-    fn levels_of(&self, v: &Value) -> Option<Vec<String>> {
-        let ev = self.evaluator()?;
-        match ev.eval(&Value::Categorical {
-            x: Box::new(v.clone()),
-            reference: None,
-        }) {
-            crate::eval::Evaluated::Codes { levels, .. } => Some(levels),
-            _ => None,
-        }
+    fn levels_of(&self, v: &Value) -> Option<std::sync::Arc<Vec<String>>> {
+        let (ev, facts, panel) = self.facts()?;
+        facts.levels(&ev, panel, v)
     }
 
     fn grouping_arg(&mut self, e: &Expr, func: &str) -> Option<usize> {

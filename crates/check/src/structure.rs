@@ -9,7 +9,6 @@ use syntax::Span;
 
 use crate::context::{count, Ctx, DataView, LetDef};
 use crate::diagnostic::{codes, Diagnostic};
-use crate::eval::PanelIndex;
 use crate::resolve::{insert_at, plural};
 use crate::value::{Ty, Value};
 use crate::DataProvider;
@@ -92,18 +91,16 @@ impl Ctx<'_> {
     /// `groups A in B in C`: every level a column, each nested in the next.
     pub fn check_groups(&mut self, levels: &[Ident], span: Span) -> Vec<usize> {
         let cols: Vec<Option<usize>> = levels.iter().map(|l| self.resolve_grouping(l)).collect();
-        let Some(frame) = self.values() else {
+        let Some((ev, facts, _)) = self.facts() else {
             return cols.into_iter().flatten().collect();
         };
-        let frame = frame.clone();
-        let ev = crate::eval::Evaluator::new(&frame, None);
+        let frame = ev.frame;
+        let mut diags = Vec::new();
         for i in 0..levels.len().saturating_sub(1) {
             let (Some(inner), Some(outer)) = (cols[i], cols[i + 1]) else {
                 continue;
             };
-            let gi = ev.group(inner);
-            let go = ev.group(outer);
-            let violations = gi.nesting_violations(&go);
+            let violations = facts.nesting(&ev, inner, outer);
             if let Some(v) = violations.first() {
                 let (a, b) = (&levels[i].name, &levels[i + 1].name);
                 let places: Vec<String> = v
@@ -121,8 +118,11 @@ impl Ctx<'_> {
                     if violations.len() == 1 { "spans" } else { "span" }
                 );
                 let at = levels[i].span.cover(levels[i + 1].span);
-                self.push(Diagnostic::error(codes::NOT_NESTED, at, msg));
+                diags.push(Diagnostic::error(codes::NOT_NESTED, at, msg));
             }
+        }
+        for d in diags {
+            self.push(d);
         }
         let _ = span;
         cols.into_iter().flatten().collect()
@@ -134,10 +134,12 @@ impl Ctx<'_> {
         let t = self.resolve_grouping(time);
         let (Some(u), Some(t)) = (u, t) else { return };
         self.panel = Some((u, t));
-        let Some(frame) = self.values() else { return };
-        let frame = frame.clone();
+        let Some(data) = self.data.as_ref().filter(|d| d.complete) else {
+            return;
+        };
+        let (frame, facts) = (data.frame.clone(), data.facts.clone());
         let times = match &frame.columns()[t].data {
-            ColumnData::Numeric(c) => c.values.clone(),
+            ColumnData::Numeric(c) => &c.values,
             ColumnData::Categorical(c) => {
                 let msg = match &c.text_in_numbers {
                     Some(x) => format!(
@@ -165,7 +167,7 @@ impl Ctx<'_> {
             self.push(Diagnostic::warning(codes::PANEL_TIME, time.span, msg));
         }
         let ev = crate::eval::Evaluator::new(&frame, None);
-        let index = PanelIndex::new(std::sync::Arc::clone(&ev.group(u)), times);
+        let index = facts.panel_index(&ev, u, || times.clone(), t);
         let (dups, n_dups) = index.duplicates(1);
         let span = unit.span.cover(time.span);
         if let Some(&(a, b)) = dups.first() {
@@ -258,9 +260,6 @@ pub struct FileLoader;
 
 impl DataProvider for FileLoader {
     fn load(&self, path: &Path, options: &ReadOptions) -> Result<DataView, ReadError> {
-        frame::read_csv(path, options).map(|f| DataView {
-            frame: std::sync::Arc::new(f),
-            complete: true,
-        })
+        frame::read_csv(path, options).map(|f| DataView::new(std::sync::Arc::new(f), true))
     }
 }

@@ -73,7 +73,7 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
     let mut fit_of = vec![None; checked.models.len()];
     let mut all_ok = true;
     for (i, m) in checked.models.iter().enumerate() {
-        match engine::fit(m, &frame, checked.panel_index.as_ref(), &options) {
+        match engine::fit(m, &frame, checked.panel_index.as_deref(), &options) {
             Ok(f) => {
                 fit_of[i] = Some(fits.len());
                 fits.push(f);
@@ -141,7 +141,7 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
             &checked.models[r.model],
             &fits[k],
             &frame,
-            checked.panel_index.as_ref(),
+            checked.panel_index.as_deref(),
             &probe_options,
         );
         if let Some(p) = progress {

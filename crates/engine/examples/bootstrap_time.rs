@@ -30,7 +30,7 @@ fn main() {
     let request = c.requests.last().expect("the appended statement");
     let model = &c.models[request.model];
     let frame = &c.data.as_ref().expect("demo data").frame;
-    let panel = c.panel_index.as_ref();
+    let panel = c.panel_index.as_deref();
     let f = fit(model, frame, panel, &FitOptions::default()).expect("the demo model fits");
     println!(
         "model `{}`: {} rows, {} coefficients, {} draws",

@@ -46,7 +46,7 @@ pub fn build(
         .rows
         .as_ref()
         .ok_or_else(|| err("the data were not loaded, so there is no estimation sample".into()))?;
-    let mut sample = rows_account.sample.clone();
+    let mut sample = rows_account.sample.to_bools();
     let outcome = model
         .outcome
         .as_ref()

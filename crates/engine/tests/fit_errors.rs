@@ -14,7 +14,7 @@ fn fit_text(text: &str, options: &FitOptions) -> Result<engine::ModelFit, engine
     fit(
         &checked.models[0],
         &frame,
-        checked.panel_index.as_ref(),
+        checked.panel_index.as_deref(),
         options,
     )
 }

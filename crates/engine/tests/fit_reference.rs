@@ -74,7 +74,7 @@ fn run(case: &Value) -> ModelFit {
     fit(
         &checked.models[0],
         &frame,
-        checked.panel_index.as_ref(),
+        checked.panel_index.as_deref(),
         &FitOptions::default(),
     )
     .unwrap_or_else(|e| panic!("{}: {e}", case["name"]))

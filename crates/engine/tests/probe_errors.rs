@@ -22,7 +22,7 @@ fn fit_first(c: &Checked) -> ModelFit {
     fit(
         &c.models[0],
         frame,
-        c.panel_index.as_ref(),
+        c.panel_index.as_deref(),
         &FitOptions::default(),
     )
     .unwrap()
@@ -41,7 +41,7 @@ fn probe(text: &str, edit: impl Fn(&mut check::Request)) -> Result<Output, Strin
         &c.models[r.model],
         &f,
         frame,
-        c.panel_index.as_ref(),
+        c.panel_index.as_deref(),
         &ProbeOptions::default(),
     )
     .map_err(|e| e.message)

@@ -28,7 +28,7 @@ fn run_text(text: &str) -> Result<Output, String> {
     assert!(!checked.has_errors(), "{text}\n{:?}", checked.diagnostics);
     let frame = checked.data.as_ref().unwrap().frame.clone();
     let model = &checked.models[checked.requests[0].model];
-    let panel = checked.panel_index.as_ref();
+    let panel = checked.panel_index.as_deref();
     let f = fit(model, &frame, panel, &FitOptions::default()).map_err(|e| e.to_string())?;
     run(
         &checked.requests[0],

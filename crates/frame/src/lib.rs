@@ -144,11 +144,12 @@ pub struct TextInNumbers {
     pub numeric_count: usize,
 }
 
-/// A bit per row: set = missing.
+/// A bit per row. In a column: set = missing. The checker also uses it for
+/// rows kept by a condition and for a model's estimation sample.
 ///
 /// A bit set rather than `Vec<bool>` because frames stay in the language
 /// server's memory: one bit per value keeps the mask at 1/64 of the numbers.
-#[derive(Clone, Debug, PartialEq, Eq, Default)]
+#[derive(Clone, Debug, PartialEq, Eq, Hash, Default)]
 pub struct Mask {
     bits: Vec<u64>,
     len: usize,

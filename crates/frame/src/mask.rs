@@ -58,6 +58,112 @@ impl Mask {
         }
     }
 
+    /// `len` rows, all set.
+    pub fn full(len: usize) -> Mask {
+        let mut bits = vec![u64::MAX; len.div_ceil(64)];
+        if let Some(last) = bits.last_mut() {
+            if !len.is_multiple_of(64) {
+                *last = (1u64 << (len % 64)) - 1;
+            }
+        }
+        Mask {
+            bits,
+            len,
+            count: len,
+        }
+    }
+
+    /// Set where the code is [`crate::MISSING_CODE`].
+    pub fn from_missing_codes(codes: &[u32]) -> Mask {
+        let mut bits = Vec::with_capacity(codes.len().div_ceil(64));
+        let mut count = 0;
+        for block in codes.chunks(64) {
+            let mut word = 0u64;
+            for (j, &c) in block.iter().enumerate() {
+                word |= ((c == crate::MISSING_CODE) as u64) << j;
+            }
+            count += word.count_ones() as usize;
+            bits.push(word);
+        }
+        Mask {
+            bits,
+            len: codes.len(),
+            count,
+        }
+    }
+
+    /// Set where `keep` holds for the value, 64 rows per word.
+    pub fn from_values(values: &[f64], keep: impl Fn(f64) -> bool) -> Mask {
+        let mut bits = Vec::with_capacity(values.len().div_ceil(64));
+        let mut count = 0;
+        for block in values.chunks(64) {
+            let mut word = 0u64;
+            for (j, &v) in block.iter().enumerate() {
+                word |= (keep(v) as u64) << j;
+            }
+            count += word.count_ones() as usize;
+            bits.push(word);
+        }
+        Mask {
+            bits,
+            len: values.len(),
+            count,
+        }
+    }
+
+    /// Keep only the rows also set in `other` (rows past `other`'s end are cleared).
+    pub fn and_assign(&mut self, other: &Mask) {
+        for (i, w) in self.bits.iter_mut().enumerate() {
+            *w &= other.bits.get(i).copied().unwrap_or(0);
+        }
+        self.recount();
+    }
+
+    /// Clear the rows set in `other`.
+    pub fn and_not_assign(&mut self, other: &Mask) {
+        for (w, o) in self.bits.iter_mut().zip(&other.bits) {
+            *w &= !o;
+        }
+        self.recount();
+    }
+
+    /// How many rows are set in both.
+    pub fn count_and(&self, other: &Mask) -> usize {
+        self.bits
+            .iter()
+            .zip(&other.bits)
+            .map(|(a, b)| (a & b).count_ones() as usize)
+            .sum()
+    }
+
+    /// One flag per row.
+    pub fn to_bools(&self) -> Vec<bool> {
+        (0..self.len).map(|r| self.is_set(r)).collect()
+    }
+
+    /// Replace the values of rows not set by NaN, 64 rows per word.
+    pub fn blank_unset(&self, values: &mut [f64]) {
+        for (block, &word) in values.chunks_mut(64).zip(&self.bits) {
+            if word == u64::MAX {
+                continue;
+            }
+            for (j, v) in block.iter_mut().enumerate() {
+                if (word >> j) & 1 == 0 {
+                    *v = f64::NAN;
+                }
+            }
+        }
+    }
+
+    /// Bytes held, for caches that bound their size.
+    pub fn heap_bytes(&self) -> usize {
+        self.bits.len() * 8
+    }
+
+    fn recount(&mut self) {
+        self.count = self.bits.iter().map(|w| w.count_ones() as usize).sum();
+    }
+
     /// The set rows in increasing order.
     pub fn iter_set(&self) -> impl Iterator<Item = usize> + '_ {
         self.bits.iter().enumerate().flat_map(|(w, &word)| {
@@ -96,5 +202,38 @@ mod tests {
         b.set(2);
         b.set(99);
         assert_eq!(b.count(), 2);
+    }
+
+    #[test]
+    fn word_wise_operations_agree_with_row_by_row_flags() {
+        let len = 200;
+        let a_flags: Vec<bool> = (0..len).map(|r| r % 3 == 0).collect();
+        let b_flags: Vec<bool> = (0..len).map(|r| r % 5 != 1).collect();
+        let (a, b) = (Mask::from_bools(&a_flags), Mask::from_bools(&b_flags));
+        let both = (0..len).filter(|&r| a_flags[r] && b_flags[r]).count();
+        assert_eq!(a.count_and(&b), both);
+        let mut and = a.clone();
+        and.and_assign(&b);
+        assert_eq!(and.count(), both);
+        let mut and_not = a.clone();
+        and_not.and_not_assign(&b);
+        let only_a: Vec<bool> = (0..len).map(|r| a_flags[r] && !b_flags[r]).collect();
+        assert_eq!(and_not.to_bools(), only_a);
+        assert_eq!(and_not.count(), only_a.iter().filter(|f| **f).count());
+        let full = Mask::full(130);
+        assert_eq!(full.count(), 130);
+        assert!(full.is_set(129) && !full.is_set(130));
+        assert_eq!(full, Mask::from_bools(&[true; 130]));
+        assert_eq!(Mask::full(128), Mask::from_bools(&[true; 128]));
+        let codes = [0, crate::MISSING_CODE, 2];
+        assert_eq!(
+            Mask::from_missing_codes(&codes).to_bools(),
+            [false, true, false]
+        );
+        let kept = Mask::from_values(&[1.0, 0.0, f64::NAN, -2.0], |v| !v.is_nan() && v != 0.0);
+        assert_eq!(kept.to_bools(), [true, false, false, true]);
+        let mut v = vec![1.0, 2.0, 3.0, 4.0];
+        kept.blank_unset(&mut v);
+        assert!(v[0] == 1.0 && v[1].is_nan() && v[2].is_nan() && v[3] == 4.0);
     }
 }

@@ -188,6 +188,7 @@ impl Backend {
                         d.notify.notify_one();
                     }
                 }
+                crate::memory::after_check();
                 client
                     .publish_diagnostics(uri.clone(), diags, Some(version))
                     .await;
@@ -196,7 +197,8 @@ impl Backend {
     }
 
     /// Look at the data files of open documents now and then: a file changed
-    /// by another program is read again and the documents re-checked.
+    /// by another program is read again and the documents re-checked. The
+    /// same tick returns freed memory once checking has gone quiet.
     fn start_polling(&self) {
         if self.polling.swap(true, Ordering::AcqRel) {
             return;
@@ -206,6 +208,7 @@ impl Backend {
         tokio::spawn(async move {
             loop {
                 tokio::time::sleep(every).await;
+                crate::memory::release_when_idle();
                 let map = lock(&docs);
                 for d in map.values() {
                     if let Some((p, s)) = &d.data {

@@ -26,11 +26,13 @@ struct Stamp {
     modified: Option<SystemTime>,
 }
 
+/// One view per frame, handed out as clones: the checker's cache of facts
+/// travels in the view, so every check of the same data shares it.
 #[derive(Clone, Debug)]
 enum State {
     /// Being read; the header is known.
-    Loading(Arc<Frame>),
-    Ready(Arc<Frame>),
+    Loading(DataView),
+    Ready(DataView),
     Failed(ReadError),
 }
 
@@ -72,7 +74,7 @@ impl DataCache {
     /// The frame of a path when its values are loaded.
     pub fn ready(&self, path: &Path) -> Option<Arc<Frame>> {
         match &self.lock().get(path)?.state {
-            State::Ready(f) => Some(f.clone()),
+            State::Ready(v) => Some(v.frame.clone()),
             _ => None,
         }
     }
@@ -86,7 +88,7 @@ impl DataCache {
         let me = self.clone();
         std::thread::spawn(move || {
             let state = match read_in_memory(&path, &options) {
-                Ok(f) => State::Ready(Arc::new(f)),
+                Ok(f) => State::Ready(DataView::new(Arc::new(f), true)),
                 Err(e) => State::Failed(e),
             };
             {
@@ -120,12 +122,12 @@ impl DataProvider for DataCache {
         }
         let state = if stamp.len < self.background_min {
             match read_in_memory(path, options) {
-                Ok(f) => State::Ready(Arc::new(f)),
+                Ok(f) => State::Ready(DataView::new(Arc::new(f), true)),
                 Err(e) => State::Failed(e),
             }
         } else {
             match frame::read_header(path) {
-                Ok(names) => State::Loading(Arc::new(header_frame(names))),
+                Ok(names) => State::Loading(DataView::new(Arc::new(header_frame(names)), false)),
                 Err(e) => State::Failed(e),
             }
         };
@@ -148,14 +150,7 @@ impl DataProvider for DataCache {
 
 fn view(state: &State) -> Result<DataView, ReadError> {
     match state {
-        State::Loading(f) => Ok(DataView {
-            frame: f.clone(),
-            complete: false,
-        }),
-        State::Ready(f) => Ok(DataView {
-            frame: f.clone(),
-            complete: true,
-        }),
+        State::Loading(v) | State::Ready(v) => Ok(v.clone()),
         State::Failed(e) => Err(e.clone()),
     }
 }

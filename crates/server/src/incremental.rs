@@ -103,15 +103,6 @@ fn sort(diags: &mut Vec<Diagnostic>) {
     diags.dedup();
 }
 
-/// The server does not need the per-row estimation sample; keeping one per
-/// model would cost a byte per data row each.
-fn slim(mut m: ResolvedModel) -> Arc<ResolvedModel> {
-    if let Some(r) = &mut m.rows {
-        r.sample = Vec::new();
-    }
-    Arc::new(m)
-}
-
 pub fn check(
     text: &str,
     parsed: &Parsed,
@@ -236,7 +227,7 @@ pub fn check(
             let mut models: Vec<(usize, Arc<ResolvedModel>)> = Vec::new();
             let mut fresh: HashMap<&str, Arc<ResolvedModel>> = HashMap::new();
             for m in &checked.models {
-                fresh.insert(m.name.as_str(), slim(m.clone()));
+                fresh.insert(m.name.as_str(), Arc::new(m.clone()));
             }
             let mut next_units = HashMap::new();
             for (i, s) in stmts.iter().enumerate() {
@@ -282,7 +273,7 @@ pub fn check(
     for m in &checked.models {
         by_name
             .entry(m.name.as_str())
-            .or_insert_with(|| slim(m.clone()));
+            .or_insert_with(|| Arc::new(m.clone()));
     }
     let mut units = HashMap::new();
     let mut models = Vec::new();
@@ -370,10 +361,7 @@ probe b: tenure across meetings at mean
     fn reused_findings_equal_a_check_of_the_whole_file() {
         let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../demo-data");
         let frame = frame::read_csv(&dir.join("teams.csv"), &Default::default()).unwrap();
-        let data = Fixed(check::DataView {
-            frame: Arc::new(frame),
-            complete: true,
-        });
+        let data = Fixed(check::DataView::new(Arc::new(frame), true));
         let mut cache = UnitCache::default();
         let edits = [
             BASE.to_string(),

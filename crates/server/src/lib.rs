@@ -15,6 +15,7 @@ pub mod document;
 pub mod hover;
 pub mod incremental;
 pub mod index;
+pub mod memory;
 pub mod navigate;
 pub mod scan;
 pub mod tokens;
@@ -25,6 +26,7 @@ use tower_lsp_server::{LspService, Server};
 
 /// Serve the protocol on standard input and output until the client exits.
 pub fn run_stdio() -> Result<(), String> {
+    memory::configure();
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .worker_threads(2)
         .enable_all()

@@ -20,10 +20,7 @@ struct Loaded(Arc<frame::Frame>);
 
 impl DataProvider for Loaded {
     fn load(&self, _: &Path, _: &ReadOptions) -> Result<DataView, ReadError> {
-        Ok(DataView {
-            frame: self.0.clone(),
-            complete: true,
-        })
+        Ok(DataView::new(self.0.clone(), true))
     }
 }
 

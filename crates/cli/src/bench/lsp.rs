@@ -51,7 +51,15 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
     let _ = send(&mut stdin, &json!({"jsonrpc": "2.0", "method": "exit"}));
     drop(stdin);
     let _ = wait_or_kill(&mut child);
-    let (latencies, let_latencies, load, rss, hwm) = result?;
+    let Measured {
+        model: latencies,
+        new_terms,
+        lets: let_latencies,
+        load,
+        rss,
+        rss_idle,
+        hwm,
+    } = result?;
 
     let numeric_bytes = rows * COLUMNS.len() * 8;
     let mut sorted = latencies.clone();
@@ -59,6 +67,8 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
     let pct =
         |p: f64| sorted[((p * (sorted.len() - 1) as f64).round() as usize).min(sorted.len() - 1)];
     let mb = |b: usize| b as f64 / 1e6;
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len().max(1) as f64;
+    let max = |v: &[f64]| v.iter().copied().fold(0.0, f64::max);
     let mut out = String::new();
     let _ = writeln!(
         out,
@@ -76,27 +86,53 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
         pct(0.95),
         sorted[sorted.len() - 1]
     );
-    let mean_let = let_latencies.iter().sum::<f64>() / let_latencies.len().max(1) as f64;
     let _ = writeln!(
         out,
-        "keystroke in a `let` line (whole file checked again): mean {mean_let:.0} ms over {} edits",
+        "edit adding a term never seen before (evaluated over every row): mean {:.1} ms, max {:.1} ms over {} edits",
+        mean(&new_terms),
+        max(&new_terms),
+        new_terms.len()
+    );
+    let _ = writeln!(
+        out,
+        "edit changing a `let` definition (every model using it checked again): mean {:.1} ms, max {:.1} ms over {} edits",
+        mean(&let_latencies),
+        max(&let_latencies),
         let_latencies.len()
     );
     let _ = writeln!(
         out,
-        "server memory: resident {:.0} MB ({:.2}x the numbers), peak {:.0} MB ({:.2}x) (target <= 2x)",
+        "server memory: resident {:.0} MB ({:.2}x the numbers) after the last edit, {:.0} MB ({:.2}x) once idle; peak {:.0} MB ({:.2}x) (target <= 2x)",
         mb(rss),
         rss as f64 / numeric_bytes as f64,
+        mb(rss_idle),
+        rss_idle as f64 / numeric_bytes as f64,
         mb(hwm),
         hwm as f64 / numeric_bytes as f64
     );
     Ok(out)
 }
 
-type Measured = (Vec<f64>, Vec<f64>, f64, usize, usize);
+/// What one session measured: latencies in milliseconds, the time to the
+/// first full diagnostics in seconds, and the server's memory in bytes.
+struct Measured {
+    /// Keystrokes in model formulas.
+    model: Vec<f64>,
+    /// Edits that add a product of columns no model had, so its facts are
+    /// computed over every row (the cost the cache cannot save).
+    new_terms: Vec<f64>,
+    /// Edits that change a `let` definition to a new value and back.
+    lets: Vec<f64>,
+    load: f64,
+    /// Resident right after the last edit, and after three idle seconds.
+    rss: usize,
+    rss_idle: usize,
+    hwm: usize,
+}
 
-/// Keystrokes timed in `let` lines after those in model formulas.
+/// Edits timed in `let` lines, and edits adding a new term.
 const LET_EDITS: usize = 6;
+const NEW_TERM_EDITS: usize = 8;
 
 fn session(
     stdin: &mut ChildStdin,
@@ -149,21 +185,11 @@ fn session(
     let formulas = targets("  y = ");
     let lets = targets("let ");
     let mut latencies = Vec::with_capacity(edits);
+    let mut new_terms = Vec::new();
     let mut let_latencies = Vec::new();
-    // Edits in model formulas, then a few in `let` lines (which every model
-    // using the name depends on, so the whole file is checked again).
-    for k in 0..edits + LET_EDITS {
-        let (line, col) = if k < edits {
-            formulas[(k / 2 * 7) % formulas.len()]
-        } else {
-            lets[(k / 2) % lets.len()]
-        };
-        let version = k as i64 + 2;
-        let change = if k % 2 == 0 {
-            json!({"range": range(line, col, line, col), "text": "q"})
-        } else {
-            json!({"range": range(line, col, line, col + 1), "text": ""})
-        };
+    let mut version = 1;
+    let mut timed = |change: Value| -> Result<f64, String> {
+        version += 1;
         let start = Instant::now();
         send(
             stdin,
@@ -175,15 +201,53 @@ fn session(
             |m| is_diagnostics(m, uri, version),
             Duration::from_secs(60),
         )?;
-        let ms = start.elapsed().as_secs_f64() * 1e3;
-        if k < edits {
-            latencies.push(ms);
-        } else {
-            let_latencies.push(ms);
-        }
+        Ok(start.elapsed().as_secs_f64() * 1e3)
+    };
+    // Keystrokes: type a character into a term and take it out again, in
+    // turn, on lines spread over the file, each waiting for its diagnostics.
+    for k in 0..edits {
+        let (line, col) = formulas[(k / 2 * 7) % formulas.len()];
+        latencies.push(timed(type_or_erase(k, line, col, "q"))?);
+    }
+    // A new product term at the end of a formula, then taken out again; only
+    // the first is timed (taking it out returns to what was checked before).
+    for k in 0..NEW_TERM_EDITS {
+        let (line, _) = formulas[(k * 11) % formulas.len()];
+        let end = lines[line].len();
+        let (a, b) = (k % 5 + 1, (k + 1 + k / 5) % 5 + 1);
+        let term = format!(" + x{a}*x{b}^2");
+        new_terms.push(timed(type_or_erase(0, line, end, &term))?);
+        timed(type_or_erase(1, line, end, &term))?;
+    }
+    // A `let` changed to a new value and back: every model using the name is
+    // checked again, its other terms from the cache.
+    for k in 0..LET_EDITS {
+        let (line, col) = lets[(k / 2 * 4) % lets.len()];
+        let_latencies.push(timed(type_or_erase(k, line, col, "0.5*"))?);
     }
     let (rss, hwm) = memory(child.id())?;
-    Ok((latencies, let_latencies, load, rss, hwm))
+    // An editor's server is idle most of the time: measure again once it
+    // has had the chance to return freed memory.
+    std::thread::sleep(server::memory::IDLE_AFTER * 3);
+    let (rss_idle, _) = memory(child.id())?;
+    Ok(Measured {
+        rss_idle,
+        model: latencies,
+        new_terms,
+        lets: let_latencies,
+        load,
+        rss,
+        hwm,
+    })
+}
+
+/// The `k`-th edit of a pair: even inserts `text` at the position, odd takes it out.
+fn type_or_erase(k: usize, line: usize, col: usize, text: &str) -> Value {
+    if k.is_multiple_of(2) {
+        json!({"range": range(line, col, line, col), "text": text})
+    } else {
+        json!({"range": range(line, col, line, col + text.len()), "text": ""})
+    }
 }
 
 fn range(l0: usize, c0: usize, l1: usize, c1: usize) -> Value {
