@@ -307,6 +307,11 @@ impl Ctx<'_> {
                         .flat_map(|f| f.names.iter().map(String::as_str))
                 })
                 .collect();
+            if let Some(inside) = buried_in(m.terms.iter(), x) {
+                let d = buried_diagnostic(codes::NOT_IN_MODEL, x, inside, m, target.focal.span);
+                self.push(d);
+                return None;
+            }
             let mut msg = format!("`{x}` is not a term of model `{}`", m.name);
             let s = nearest(x, names.iter().copied());
             if let Some(s) = s {
@@ -337,6 +342,13 @@ impl Ctx<'_> {
             .iter()
             .any(|t| powers(t, x) > 0 && powers(t, &w.name) > 0);
         if !moderated {
+            // `x * log(w + 1)`: w is there, but not in a form probing can move.
+            let with_x = m.terms.iter().filter(|t| powers(t, x) > 0);
+            if let Some(inside) = buried_in(with_x, &w.name) {
+                let d = buried_diagnostic(codes::NO_INTERACTION, &w.name, inside, m, w.span);
+                self.push(d);
+                return None;
+            }
             let what = if kind == RequestKind::Turning {
                 format!("`{x}` or `{x}^2`")
             } else {
@@ -467,4 +479,42 @@ impl Ctx<'_> {
         }
         Some(full)
     }
+}
+
+/// The first factor of the model that mentions `name` inside an expression
+/// a probe cannot follow (`log(digital + 1)`, `a / b`), by its label.
+fn buried_in<'m>(
+    terms: impl Iterator<Item = &'m crate::model::ResolvedTerm>,
+    name: &str,
+) -> Option<&'m str> {
+    terms
+        .flat_map(|t| t.factors.iter())
+        .filter(|f| !f.names.iter().any(|n| n == name))
+        .map(|f| f.label.as_str())
+        .find(|label| {
+            label
+                .split(|c: char| !(c.is_alphanumeric() || c == '_' || c == '.'))
+                .any(|word| word == name)
+        })
+}
+
+fn buried_diagnostic(
+    code: &'static str,
+    name: &str,
+    inside: &str,
+    m: &ResolvedModel,
+    span: Span,
+) -> Diagnostic {
+    let msg = format!(
+        "`{name}` enters model `{}` only inside `{inside}`, and probing follows a variable only where it is a term itself or the argument of `log`, `sqrt`, `center` or `z`; name the expression with `let` (for example `let {} = {inside}`) and probe that name",
+        m.name,
+        suggested_name(name)
+    );
+    Diagnostic::error(code, span, msg)
+}
+
+/// A name for the expression in the suggestion: the variable's with a suffix.
+fn suggested_name(name: &str) -> String {
+    let base = name.trim_matches('`');
+    format!("{base}_t")
 }

@@ -203,6 +203,32 @@ fn a_square_with_a_moderator_needs_every_sub_product() {
 }
 
 #[test]
+fn a_probe_names_the_expression_that_hides_its_variable() {
+    let model = "model m { y = x + log(z + 1) + x * log(z + 1) }\n\
+                 probe m: x across z at mean\n\
+                 probe m: z across x at mean\n";
+    let (c, text) = run(PANEL, model);
+    assert!(has(
+        &c,
+        &text,
+        "error no-interaction 3:19 `z` enters model `m` only inside `log(z+1)`, and probing follows a variable only where it is a term itself"
+    ));
+    assert!(has(
+        &c,
+        &text,
+        "error not-in-model 4:10 `z` enters model `m` only inside `log(z+1)`"
+    ));
+    assert!(lines(&c, &text)
+        .iter()
+        .any(|l| l.ends_with("(for example `let z_t = log(z+1)`) and probe that name")));
+    // Named with `let`, the same model can be probed across the name.
+    let named =
+        "let lz = log(z + 1)\nmodel m { y = x + lz + x * lz }\nprobe m: x across lz at mean\n";
+    let (c, text) = run(PANEL, named);
+    assert!(!c.has_errors(), "{:?}", lines(&c, &text));
+}
+
+#[test]
 fn lets_are_used_after_their_definition_only() {
     let (c, text) = run(PANEL, "model m { y = xc }\nlet xc = center(x)\n");
     assert!(has(
