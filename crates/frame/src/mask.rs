@@ -138,7 +138,12 @@ impl Mask {
 
     /// One flag per row.
     pub fn to_bools(&self) -> Vec<bool> {
-        (0..self.len).map(|r| self.is_set(r)).collect()
+        let mut out = Vec::with_capacity(self.len);
+        for &word in &self.bits {
+            let take = (self.len - out.len()).min(64);
+            out.extend((0..take).map(|j| (word >> j) & 1 == 1));
+        }
+        out
     }
 
     /// Replace the values of rows not set by NaN, 64 rows per word.
