@@ -54,6 +54,7 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
     let Measured {
         model: latencies,
         new_terms,
+        typing,
         lets: let_latencies,
         load,
         rss,
@@ -62,10 +63,7 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
     } = result?;
 
     let numeric_bytes = rows * COLUMNS.len() * 8;
-    let mut sorted = latencies.clone();
-    sorted.sort_by(f64::total_cmp);
-    let pct =
-        |p: f64| sorted[((p * (sorted.len() - 1) as f64).round() as usize).min(sorted.len() - 1)];
+    let pct = |p: f64| percentile(&latencies, p);
     let mb = |b: usize| b as f64 / 1e6;
     let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len().max(1) as f64;
     let max = |v: &[f64]| v.iter().copied().fold(0.0, f64::max);
@@ -84,7 +82,16 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
         latencies.len(),
         pct(0.5),
         pct(0.95),
-        sorted[sorted.len() - 1]
+        max(&latencies)
+    );
+    let typed_pct = |p: f64| percentile(&typing, p);
+    let _ = writeln!(
+        out,
+        "typing terms character by character and erasing them: p50 {:.1} ms, p95 {:.1} ms, max {:.1} ms over {} keystrokes",
+        typed_pct(0.5),
+        typed_pct(0.95),
+        max(&typing),
+        typing.len()
     );
     let _ = writeln!(
         out,
@@ -121,6 +128,8 @@ struct Measured {
     /// Edits that add a product of columns no model had, so its facts are
     /// computed over every row (the cost the cache cannot save).
     new_terms: Vec<f64>,
+    /// Keystrokes typing whole terms and erasing them.
+    typing: Vec<f64>,
     /// Edits that change a `let` definition to a new value and back.
     lets: Vec<f64>,
     load: f64,
@@ -133,6 +142,9 @@ struct Measured {
 /// Edits timed in `let` lines, and edits adding a new term.
 const LET_EDITS: usize = 6;
 const NEW_TERM_EDITS: usize = 8;
+
+/// Terms typed character by character (ASCII, so bytes are UTF-16 units).
+const TYPED: [&str; 3] = [" + x3_c * x1_b", " + x5_w * x2", " + x4^2 + x4_b"];
 
 fn session(
     stdin: &mut ChildStdin,
@@ -186,6 +198,7 @@ fn session(
     let lets = targets("let ");
     let mut latencies = Vec::with_capacity(edits);
     let mut new_terms = Vec::new();
+    let mut typing = Vec::new();
     let mut let_latencies = Vec::new();
     let mut version = 1;
     let mut timed = |change: Value| -> Result<f64, String> {
@@ -219,6 +232,19 @@ fn session(
         new_terms.push(timed(type_or_erase(0, line, end, &term))?);
         timed(type_or_erase(1, line, end, &term))?;
     }
+    // Terms typed one character at a time at the end of a formula, then
+    // erased the same way: names pass through unknown and other valid
+    // columns (`x3`, then `x3_c`), so some keystrokes meet new values.
+    for (k, term) in TYPED.iter().enumerate() {
+        let (line, _) = formulas[(k * 13 + 5) % formulas.len()];
+        let end = lines[line].len();
+        for i in 0..term.len() {
+            typing.push(timed(type_or_erase(0, line, end + i, &term[i..i + 1]))?);
+        }
+        for i in (0..term.len()).rev() {
+            typing.push(timed(type_or_erase(1, line, end + i, &term[i..i + 1]))?);
+        }
+    }
     // A `let` changed to a new value and back: every model using the name is
     // checked again, its other terms from the cache.
     for k in 0..LET_EDITS {
@@ -234,11 +260,22 @@ fn session(
         rss_idle,
         model: latencies,
         new_terms,
+        typing,
         lets: let_latencies,
         load,
         rss,
         hwm,
     })
+}
+
+/// The value at fraction `p` of the sorted values (nearest rank); 0 for none.
+fn percentile(values: &[f64], p: f64) -> f64 {
+    let mut sorted = values.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    match sorted.len() {
+        0 => 0.0,
+        n => sorted[((p * (n - 1) as f64).round() as usize).min(n - 1)],
+    }
 }
 
 /// The `k`-th edit of a pair: even inserts `text` at the position, odd takes it out.
