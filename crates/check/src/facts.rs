@@ -138,27 +138,25 @@ impl Facts {
         panel: PanelKey,
         v: &Value,
     ) -> Option<Arc<Mask>> {
-        let k = key(v, panel);
-        if let Some(m) = self.lock().missing.get(&k) {
-            return m.clone();
-        }
-        let mask = match v {
-            Value::Column(c) => match &ev.frame.columns()[*c].data {
-                ColumnData::Numeric(col) => col.missing.clone(),
-                ColumnData::Categorical(col) => Mask::from_missing_codes(&col.codes),
+        self.mask_fact(
+            |i| &mut i.missing,
+            key(v, panel),
+            || {
+                let mask = match v {
+                    Value::Column(c) => match &ev.frame.columns()[*c].data {
+                        ColumnData::Numeric(col) => col.missing.clone(),
+                        ColumnData::Categorical(col) => Mask::from_missing_codes(&col.codes),
+                    },
+                    _ => match ev.eval(v) {
+                        Evaluated::Numbers(x) => Mask::from_nan(&x),
+                        Evaluated::Codes { codes, .. } => Mask::from_missing_codes(&codes),
+                        Evaluated::Scalar(x) if x.is_nan() => Mask::full(ev.n()),
+                        Evaluated::Scalar(_) | Evaluated::Text(_) => Mask::new(ev.n()),
+                    },
+                };
+                (mask.count() > 0).then_some(mask)
             },
-            _ => match ev.eval(v) {
-                Evaluated::Numbers(x) => Mask::from_nan(&x),
-                Evaluated::Codes { codes, .. } => Mask::from_missing_codes(&codes),
-                Evaluated::Scalar(x) if x.is_nan() => Mask::full(ev.n()),
-                Evaluated::Scalar(_) | Evaluated::Text(_) => Mask::new(ev.n()),
-            },
-        };
-        let mask = (mask.count() > 0).then(|| Arc::new(mask));
-        let mut inner = self.lock();
-        self.reserve(&mut inner, mask.as_ref().map_or(0, |m| m.heap_bytes()));
-        inner.missing.insert(k, mask.clone());
-        mask
+        )
     }
 
     /// Rows a `where` condition keeps: defined and non-zero. `None` keeps all.
@@ -168,16 +166,31 @@ impl Facts {
         panel: PanelKey,
         cond: &Value,
     ) -> Option<Arc<Mask>> {
-        let k = key(cond, panel);
-        if let Some(m) = self.lock().kept.get(&k) {
+        self.mask_fact(
+            |i| &mut i.kept,
+            key(cond, panel),
+            || {
+                let x = ev.numbers_cow(cond);
+                let mask = Mask::from_values(&x, |v| !v.is_nan() && v != 0.0);
+                (mask.count() < ev.n()).then_some(mask)
+            },
+        )
+    }
+
+    /// A row mask from one of the maps, computed outside the lock when absent.
+    fn mask_fact(
+        &self,
+        map: fn(&mut Inner) -> &mut HashMap<Key, Option<Arc<Mask>>>,
+        k: Key,
+        compute: impl FnOnce() -> Option<Mask>,
+    ) -> Option<Arc<Mask>> {
+        if let Some(m) = map(&mut self.lock()).get(&k) {
             return m.clone();
         }
-        let x = ev.numbers_cow(cond);
-        let mask = Mask::from_values(&x, |v| !v.is_nan() && v != 0.0);
-        let mask = (mask.count() < ev.n()).then(|| Arc::new(mask));
+        let mask = compute().map(Arc::new);
         let mut inner = self.lock();
         self.reserve(&mut inner, mask.as_ref().map_or(0, |m| m.heap_bytes()));
-        inner.kept.insert(k, mask.clone());
+        map(&mut inner).insert(k, mask.clone());
         mask
     }
 

@@ -28,21 +28,7 @@ impl Mask {
     /// NaN, and building the mask from them afterwards keeps the hot parsing
     /// loop free of bookkeeping.
     pub fn from_nan(values: &[f64]) -> Mask {
-        let mut bits = Vec::with_capacity(values.len().div_ceil(64));
-        let mut count = 0;
-        for block in values.chunks(64) {
-            let mut word = 0u64;
-            for (j, v) in block.iter().enumerate() {
-                word |= (v.is_nan() as u64) << j;
-            }
-            count += word.count_ones() as usize;
-            bits.push(word);
-        }
-        Mask {
-            bits,
-            len: values.len(),
-            count,
-        }
+        Mask::from_predicate(values, f64::is_nan)
     }
 
     /// Set one row; rows past the end are ignored rather than panicking, so a
@@ -75,38 +61,29 @@ impl Mask {
 
     /// Set where the code is [`crate::MISSING_CODE`].
     pub fn from_missing_codes(codes: &[u32]) -> Mask {
-        let mut bits = Vec::with_capacity(codes.len().div_ceil(64));
-        let mut count = 0;
-        for block in codes.chunks(64) {
-            let mut word = 0u64;
-            for (j, &c) in block.iter().enumerate() {
-                word |= ((c == crate::MISSING_CODE) as u64) << j;
-            }
-            count += word.count_ones() as usize;
-            bits.push(word);
-        }
-        Mask {
-            bits,
-            len: codes.len(),
-            count,
-        }
+        Mask::from_predicate(codes, |c| c == crate::MISSING_CODE)
     }
 
     /// Set where `keep` holds for the value, 64 rows per word.
     pub fn from_values(values: &[f64], keep: impl Fn(f64) -> bool) -> Mask {
-        let mut bits = Vec::with_capacity(values.len().div_ceil(64));
+        Mask::from_predicate(values, keep)
+    }
+
+    /// Set where `set` holds, built 64 rows to a word with no branch per row.
+    fn from_predicate<T: Copy>(items: &[T], set: impl Fn(T) -> bool) -> Mask {
+        let mut bits = Vec::with_capacity(items.len().div_ceil(64));
         let mut count = 0;
-        for block in values.chunks(64) {
+        for block in items.chunks(64) {
             let mut word = 0u64;
-            for (j, &v) in block.iter().enumerate() {
-                word |= (keep(v) as u64) << j;
+            for (j, &x) in block.iter().enumerate() {
+                word |= (set(x) as u64) << j;
             }
             count += word.count_ones() as usize;
             bits.push(word);
         }
         Mask {
             bits,
-            len: values.len(),
+            len: items.len(),
             count,
         }
     }
