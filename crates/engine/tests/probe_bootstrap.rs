@@ -5,6 +5,9 @@
 //! Data: tests/reference/probe_panel.csv (tests/reference/probe.py): 40 units
 //! over 8 periods, unit effects, y = a_u + 0.8x − 0.06x² + 0.2w + 0.3xw + e,
 //! e ~ N(0, 1); the model sweeps out unit effects and clusters by unit.
+//! Failed draws: the same panel with an indicator present in few units, so
+//! that a known share of resamples (binomial, from the draw probabilities)
+//! cannot estimate it.
 
 use std::path::{Path, PathBuf};
 
@@ -180,4 +183,81 @@ fn the_progress_callback_is_called_once_per_draw() {
     };
     run(&c.requests[0], &c.models[0], &f, frame, None, &options).unwrap();
     assert_eq!(count.load(Ordering::Relaxed), 50);
+}
+
+/// The panel with an indicator `d` that is 1 in the first period of the named
+/// units and 0 elsewhere: a resample that draws none of them has no `d` to
+/// estimate, so that draw cannot be fitted.
+fn with_rare_indicator(units: &[&str], statement: &str) -> (Checked, ModelFit) {
+    let csv = std::fs::read_to_string(reference_dir().join("probe_panel.csv")).unwrap();
+    let mut lines = csv.lines();
+    let mut out = format!("{},d\n", lines.next().unwrap());
+    for line in lines {
+        let unit = line.split(',').next().unwrap();
+        let first = line.split(',').nth(1) == Some("2000");
+        let d = u8::from(first && units.contains(&unit));
+        out.push_str(&format!("{line},{d}\n"));
+    }
+    let dir = std::env::temp_dir().join(format!(
+        "slopewise-rare-{}-{}",
+        std::process::id(),
+        units.len()
+    ));
+    std::fs::create_dir_all(&dir).unwrap();
+    std::fs::write(dir.join("rare.csv"), out).unwrap();
+    let text = format!(
+        "source \"rare.csv\"\nmodel m {{\n  y = x + x^2 + w + x * w + d\n  fixed unit\n  errors cluster unit\n}}\n{statement}\n"
+    );
+    let parsed = syntax::parse(&text);
+    let c = check(&text, &parsed, &dir, &FileLoader);
+    let _ = std::fs::remove_dir_all(&dir);
+    assert!(!c.has_errors(), "{:?}", c.diagnostics);
+    let frame = &c.data.as_ref().unwrap().frame;
+    let f = fit(&c.models[0], frame, None, &FitOptions::default()).unwrap();
+    (c, f)
+}
+
+#[test]
+fn more_than_one_draw_in_twenty_failing_gives_no_interval() {
+    // `d` lives in one unit of 40: a draw of 40 units misses it with
+    // probability (39/40)^40 = 0.36, far above the 5% allowed.
+    let (c, f) = with_rare_indicator(&["U01"], "probe m: x across w at mean bootstrap 200 seed 3");
+    let frame = &c.data.as_ref().unwrap().frame;
+    let e = run(
+        &c.requests[0],
+        &c.models[0],
+        &f,
+        frame,
+        None,
+        &ProbeOptions::default(),
+    )
+    .unwrap_err();
+    assert!(
+        e.message
+            .contains("of 200 bootstrap draws could not be fitted")
+            && e.message.contains("above 5%"),
+        "{}",
+        e.message
+    );
+    let failed: usize = e.message.split(' ').next().unwrap().parse().unwrap();
+    // 200 draws at p = 0.36: far from both 10 (5%) and 200.
+    assert!((40..=110).contains(&failed), "{failed} failed draws");
+}
+
+#[test]
+fn a_few_failed_draws_are_left_out_and_counted() {
+    // `d` in 4 units of 40: a draw misses all four with probability
+    // (36/40)^40 = 0.015, so about 6 of 400 draws fail, under the 5% limit.
+    let units = ["U01", "U11", "U21", "U31"];
+    let (c, f) = with_rare_indicator(&units, "probe m: x across w at mean bootstrap 400 seed 3");
+    let p = probe_once(&c, &f);
+    assert!(p.at[0].effect.boot_ci.is_some());
+    let note = p
+        .notes
+        .iter()
+        .find(|n| n.contains("bootstrap draws could not be fitted and were left out"))
+        .unwrap_or_else(|| panic!("no note of failed draws in {:?}", p.notes));
+    let failed: usize = note.split(' ').next().unwrap().parse().unwrap();
+    assert!((1..=20).contains(&failed), "{note}");
+    assert!(note.contains("of 400 bootstrap draws"), "{note}");
 }
