@@ -100,6 +100,9 @@ def data_curve():
     df["yflat"] = (1 + 0.01 * x - 0.001 * x**2 + e(4.0)).round(4)
     # Exactly linear in x (no noise): the fitted square is rounding noise (bad-input test).
     df["ylin"] = (1 + 2 * x).round(3)
+    # A weak curve in much noise: the square's t is below the critical value
+    # while the slope is not, so the Fieller set is two rays (x <= r1 or x >= r2).
+    df["yrays"] = (1 + 0.8 * x - 0.05 * x**2 + e(4.0)).round(4)
     return df
 
 
@@ -459,6 +462,7 @@ def main():
         regions_case("regions_nowhere", a, "probe_ols.csv", "y_none", "classical", ("nowhere", "any")),
         turning_simple("turning_inverted_u", c, "probe_curve.csv", "yq", "classical", "bounded"),
         turning_simple("turning_fieller_unbounded", c, "probe_curve.csv", "yflat", "hc1", "unbounded"),
+        turning_simple("turning_fieller_two_rays", c, "probe_curve.csv", "yrays", "classical", "two_rays"),
         turning_moderated("turning_across_w", c, "probe_curve.csv"),
         *effect_log(a, "probe_ols.csv"),
         *panel_cases(p, "probe_panel.csv"),
