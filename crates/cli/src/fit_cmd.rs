@@ -135,6 +135,7 @@ pub fn run(file: &Path, format: ReportFormat, out: Option<&Path>) -> Result<bool
             level: options.level,
             on_draw: Some(&tick),
             fit: options.clone(),
+            groups: &checked.groups,
         };
         let result = engine::probe::run(
             r,

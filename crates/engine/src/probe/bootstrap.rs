@@ -2,7 +2,7 @@
 //! recompute a quantity from each draw's coefficients.
 //!
 //! Clusters are the model's cluster grouping, else its first `fixed` grouping,
-//! else the panel unit. The raw design (terms evaluated on the estimation
+//! else the panel unit, else the outermost level of the file's `groups`. The raw design (terms evaluated on the estimation
 //! sample, before the within transform) is built once; each draw concatenates
 //! the rows of its drawn clusters. A fixed grouping nested in the clusters (firm
 //! effects under firm clusters) gets distinct codes for every copy of a
@@ -71,6 +71,24 @@ impl<'a> Resampler<'a> {
         } else if let Some(p) = panel {
             let ids: Vec<u32> = design.rows.iter().map(|&r| p.unit.codes[r]).collect();
             ("the panel unit".to_string(), GroupCodes::from_ids(&ids))
+        } else if let Some(&top) = options.groups.last() {
+            // Rows of one group at any level are dependent; resampling the
+            // outermost level keeps every such group whole.
+            let name = &frame.columns()[top].name;
+            let index = frame.group_index(top);
+            let ids: Vec<u32> = design.rows.iter().map(|&r| index.codes[r]).collect();
+            let missing = ids.iter().filter(|&&c| c == frame::MISSING_CODE).count();
+            if missing > 0 {
+                return Err(format!(
+                    "the bootstrap would resample `{name}`, the outermost level of `groups`, but it is missing in {} rows of model `{}`'s sample; name the grouping with `errors cluster G`",
+                    check::count(missing),
+                    model.name
+                ));
+            }
+            (
+                format!("`{name}` (the outermost level of `groups`)"),
+                GroupCodes::from_ids(&ids),
+            )
         } else {
             return Err(format!(
                 "a cluster bootstrap resamples groups, and model `{}` has none: add `errors cluster G` (or `fixed G`) naming the grouping to resample",

@@ -62,7 +62,7 @@ pub(crate) fn plot(
     let mut notes = Vec::new();
     let (kind, rug_of, x_title, y_title) = match (&ctx.w_rows, request.at.is_empty()) {
         (Some(w_rows), false) => {
-            let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows);
+            let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows, options.groups);
             let w_name = ctx.moderator.clone().unwrap_or_default();
             notes.push(stats.words(&w_name));
             let series = request

@@ -284,6 +284,10 @@ pub struct ProbeOptions<'a> {
     pub on_draw: Option<&'a (dyn Fn() + Sync)>,
     /// Refit options for bootstrap draws.
     pub fit: crate::FitOptions,
+    /// Column indexes of the file's `groups` levels, innermost first: further
+    /// levels at which a moderator may be a group-level variable, and what a
+    /// model with no cluster, fixed or panel grouping resamples.
+    pub groups: &'a [usize],
 }
 
 impl Default for ProbeOptions<'_> {
@@ -292,6 +296,7 @@ impl Default for ProbeOptions<'_> {
             level: 0.95,
             on_draw: None,
             fit: crate::FitOptions::default(),
+            groups: &[],
         }
     }
 }

@@ -2,10 +2,13 @@
 //!
 //! Mean, SD (n − 1), minimum, maximum and percentiles (linear interpolation
 //! between order statistics) are taken over the estimation sample rows, except
-//! when the moderator is constant within the model's grouping (the first
-//! `fixed` grouping, else the first cluster grouping, else the first `vary`
-//! grouping): then it is a group-level variable and they are taken over one
-//! value per group, so large groups do not weigh more.
+//! when the moderator is a group-level variable: constant within one of the
+//! groupings that describe the data's levels (the model's first `fixed`
+//! grouping, else its first cluster grouping, else its first `vary` grouping,
+//! and every level of the file's `groups` statement). Then they are taken over
+//! one value per group, so large groups do not weigh more, at the coarsest
+//! such level (fewest groups): a department-level moderator is summarised over
+//! departments, even in a model that clusters by team.
 
 use check::{AtSpec, ResolvedModel};
 use frame::{Frame, GroupIndex};
@@ -22,20 +25,37 @@ pub(crate) struct ModeratorStats {
 }
 
 impl ModeratorStats {
-    /// `w_rows` are the moderator's values on the sample rows `rows` (frame rows).
-    pub fn new(model: &ResolvedModel, frame: &Frame, rows: &[usize], w_rows: &[f64]) -> Self {
-        let grouping = model
+    /// `w_rows` are the moderator's values on the sample rows `rows` (frame
+    /// rows); `groups` are the columns of the file's `groups` levels.
+    pub fn new(
+        model: &ResolvedModel,
+        frame: &Frame,
+        rows: &[usize],
+        w_rows: &[f64],
+        groups: &[usize],
+    ) -> Self {
+        let mut candidates: Vec<(String, usize)> = model
             .fixed
             .first()
             .or(model.cluster.first())
-            .or(model.random.first().map(|r| &r.group));
+            .or(model.random.first().map(|r| &r.group))
+            .map(|g| (g.name.clone(), g.column))
+            .into_iter()
+            .collect();
+        for &c in groups {
+            if !candidates.iter().any(|(_, k)| *k == c) {
+                candidates.push((frame.columns()[c].name.clone(), c));
+            }
+        }
         let mut over = (StatsOver::Rows, None);
         let mut values = w_rows.to_vec();
-        if let Some(g) = grouping {
-            let index = GroupIndex::from_column(&frame.columns()[g.column]);
+        for (name, column) in candidates {
+            let index = frame.group_index(column);
             if let Some(per_group) = constant_within(&index, rows, w_rows) {
-                over = (StatsOver::Groups, Some(g.name.clone()));
-                values = per_group;
+                if over.1.is_none() || per_group.len() < values.len() {
+                    over = (StatsOver::Groups, Some(name));
+                    values = per_group;
+                }
             }
         }
         let (mean, sd) = check::mean_sd(&values);

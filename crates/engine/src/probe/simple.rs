@@ -33,7 +33,7 @@ pub(crate) fn probe(
     if request.at.is_empty() {
         return Err("`probe` needs moderator values after `at`".into());
     }
-    let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows);
+    let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows, options.groups);
     let b = fit.coefficients();
     let mut notes = vec![stats.words(&w_name)];
     let mut held_at = ctx.held_at.clone();

@@ -159,7 +159,7 @@ pub(crate) fn turning(
     let mut parts = Vec::new();
     match (&ctx.w_rows, request.at.is_empty()) {
         (Some(w_rows), false) => {
-            let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows);
+            let stats = ModeratorStats::new(model, frame, &ctx.rows, w_rows, options.groups);
             notes.push(stats.words(&ctx.moderator.clone().unwrap_or_default()));
             for a in &request.at {
                 let w = stats.value(a.spec);
