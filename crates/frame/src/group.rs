@@ -97,22 +97,9 @@ impl GroupIndex {
     /// it went through floating-point arithmetic (a group mean computed twice,
     /// a unit conversion), while any real difference counts as variation.
     pub fn varies_within(&self, values: &[f64]) -> bool {
-        let g = self.n_groups();
-        let mut lo = vec![f64::INFINITY; g];
-        let mut hi = vec![f64::NEG_INFINITY; g];
-        let mut scale: f64 = 0.0;
-        for (&k, &v) in self.codes.iter().zip(values) {
-            if k == MISSING_CODE || v.is_nan() {
-                continue;
-            }
-            if let (Some(l), Some(h)) = (lo.get_mut(k as usize), hi.get_mut(k as usize)) {
-                *l = l.min(v);
-                *h = h.max(v);
-                scale = scale.max(v.abs());
-            }
-        }
-        let tol = 1e-10 * scale;
-        lo.iter().zip(&hi).any(|(&l, &h)| h - l > tol)
+        let mut ranges = GroupRanges::new(self);
+        ranges.add(0, values);
+        ranges.varies()
     }
 
     /// Whether the codes of a categorical column (any `u32` codes, missing =
@@ -183,6 +170,49 @@ impl GroupIndex {
                 rows,
             })
             .collect()
+    }
+}
+
+/// The lowest and highest value of each group, fed a block of rows at a
+/// time: a caller can test variation within groups of values it computes in
+/// blocks and never holds whole (a product of columns over a million rows).
+pub struct GroupRanges<'g> {
+    index: &'g GroupIndex,
+    lo: Vec<f64>,
+    hi: Vec<f64>,
+    scale: f64,
+}
+
+impl<'g> GroupRanges<'g> {
+    pub fn new(index: &'g GroupIndex) -> Self {
+        let g = index.n_groups();
+        GroupRanges {
+            index,
+            lo: vec![f64::INFINITY; g],
+            hi: vec![f64::NEG_INFINITY; g],
+            scale: 0.0,
+        }
+    }
+
+    /// Take in the values of rows `start..start + values.len()`; NaN is missing.
+    pub fn add(&mut self, start: usize, values: &[f64]) {
+        let codes = self.index.codes.get(start..).unwrap_or(&[]);
+        for (&k, &v) in codes.iter().zip(values) {
+            if k == MISSING_CODE || v.is_nan() {
+                continue;
+            }
+            if let (Some(l), Some(h)) = (self.lo.get_mut(k as usize), self.hi.get_mut(k as usize)) {
+                *l = l.min(v);
+                *h = h.max(v);
+                self.scale = self.scale.max(v.abs());
+            }
+        }
+    }
+
+    /// As [`GroupIndex::varies_within`] over every row taken in so far.
+    pub fn varies(&self) -> bool {
+        let tol = 1e-10 * self.scale;
+        self.lo.iter().zip(&self.hi).any(|(&l, &h)| h - l > tol)
     }
 }
 
@@ -325,6 +355,28 @@ mod tests {
         assert!(!g.varies_within(&[1.0, 5.0, 1.0 + 1e-14, 100.0, 5.0]));
         assert!(!g.codes_vary_within(&[0, 1, 0, 2, 1]));
         assert!(g.codes_vary_within(&[0, 1, 1, 2, 1]));
+    }
+
+    #[test]
+    fn ranges_fed_in_blocks_agree_with_one_pass() {
+        // Group a varies only across the block boundary (rows 1 and 4).
+        let g = GroupIndex::from_column(&Column::categorical(
+            "g",
+            &[Some("b"), Some("a"), Some("b"), None, Some("a"), Some("b")],
+        ));
+        let v = [2.0, 1.0, 2.0, 9.0, 1.5, 2.0];
+        assert!(g.varies_within(&v));
+        let mut r = GroupRanges::new(&g);
+        r.add(0, &v[..3]);
+        assert!(!r.varies(), "a single value per group so far");
+        r.add(3, &v[3..]);
+        assert!(r.varies());
+        let constant = [2.0, 1.0, 2.0, 9.0, 1.0, 2.0];
+        let mut r = GroupRanges::new(&g);
+        r.add(0, &constant[..4]);
+        r.add(4, &constant[4..]);
+        assert_eq!(r.varies(), g.varies_within(&constant));
+        assert!(!r.varies());
     }
 
     #[test]

@@ -25,6 +25,7 @@ mod read;
 mod summary;
 mod tokenize;
 
+pub use group::GroupRanges;
 pub use summary::summarize;
 
 /// Code of a missing value in a categorical column or a group index.

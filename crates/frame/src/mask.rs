@@ -125,7 +125,22 @@ impl Mask {
 
     /// Replace the values of rows not set by NaN, 64 rows per word.
     pub fn blank_unset(&self, values: &mut [f64]) {
-        for (block, &word) in values.chunks_mut(64).zip(&self.bits) {
+        self.blank_unset_at(0, values);
+    }
+
+    /// As [`Mask::blank_unset`] for the rows `start..start + values.len()`;
+    /// `start` must be a multiple of 64 (a word boundary), else nothing is blanked
+    /// and the caller's debug build stops.
+    pub fn blank_unset_at(&self, start: usize, values: &mut [f64]) {
+        debug_assert!(
+            start.is_multiple_of(64),
+            "row {start} is not on a word boundary"
+        );
+        if !start.is_multiple_of(64) {
+            return;
+        }
+        let words = self.bits.get(start / 64..).unwrap_or(&[]);
+        for (block, &word) in values.chunks_mut(64).zip(words) {
             if word == u64::MAX {
                 continue;
             }
@@ -216,6 +231,15 @@ mod tests {
         assert_eq!(kept.to_bools(), [true, false, false, true]);
         let mut v = vec![1.0, 2.0, 3.0, 4.0];
         kept.blank_unset(&mut v);
+        // From a later word: rows 64..130 of a mask with rows 64 and 129 unset.
+        let mut late = Mask::full(130);
+        late.and_not_assign(&Mask::from_bools(
+            &(0..130).map(|r| r == 64 || r == 129).collect::<Vec<_>>(),
+        ));
+        let mut tail = vec![1.0; 66];
+        late.blank_unset_at(64, &mut tail);
+        assert!(tail[0].is_nan() && tail[65].is_nan());
+        assert_eq!(tail.iter().filter(|x| x.is_nan()).count(), 2);
         assert!(v[0] == 1.0 && v[1].is_nan() && v[2].is_nan() && v[3] == 4.0);
     }
 }
