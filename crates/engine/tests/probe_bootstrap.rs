@@ -9,11 +9,14 @@
 //! that a known share of resamples (binomial, from the draw probabilities)
 //! cannot estimate it.
 
+mod written;
+
 use std::path::{Path, PathBuf};
 
 use check::{check, Checked, FileLoader};
 use engine::probe::{run, time_bootstrap, Output, ProbeOptions, ProbeResult};
 use engine::{fit, FitOptions, ModelFit};
+use written::fit_written;
 
 const PANEL: &str = "source \"probe_panel.csv\"\nmodel m {\n  y = x + x^2 + w + x * w\n  fixed unit\n  errors cluster unit\n}\n";
 
@@ -198,23 +201,10 @@ fn with_rare_indicator(units: &[&str], statement: &str) -> (Checked, ModelFit) {
         let d = u8::from(first && units.contains(&unit));
         out.push_str(&format!("{line},{d}\n"));
     }
-    let dir = std::env::temp_dir().join(format!(
-        "slopewise-rare-{}-{}",
-        std::process::id(),
-        units.len()
-    ));
-    std::fs::create_dir_all(&dir).unwrap();
-    std::fs::write(dir.join("rare.csv"), out).unwrap();
     let text = format!(
         "source \"rare.csv\"\nmodel m {{\n  y = x + x^2 + w + x * w + d\n  fixed unit\n  errors cluster unit\n}}\n{statement}\n"
     );
-    let parsed = syntax::parse(&text);
-    let c = check(&text, &parsed, &dir, &FileLoader);
-    let _ = std::fs::remove_dir_all(&dir);
-    assert!(!c.has_errors(), "{:?}", c.diagnostics);
-    let frame = &c.data.as_ref().unwrap().frame;
-    let f = fit(&c.models[0], frame, None, &FitOptions::default()).unwrap();
-    (c, f)
+    fit_written("rare.csv", &out, &text)
 }
 
 #[test]

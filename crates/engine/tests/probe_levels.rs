@@ -9,11 +9,12 @@
 //! out in the test from the same table (common practice for group-level
 //! moderators: each group counts once).
 
-use std::path::PathBuf;
+mod written;
 
-use check::{check, Checked, FileLoader};
+use check::Checked;
 use engine::probe::{run, Output, ProbeOptions, ProbeResult};
-use engine::{fit, FitOptions, ModelFit};
+use engine::ModelFit;
+use written::fit_written;
 
 struct Table {
     csv: String,
@@ -58,23 +59,10 @@ fn mean_sd(v: &[f64]) -> (f64, f64) {
 }
 
 fn setup(structure: &str, model_lines: &str, statement: &str) -> (Checked, ModelFit) {
-    let dir: PathBuf = std::env::temp_dir().join(format!(
-        "slopewise-levels-{}-{}",
-        std::process::id(),
-        statement.len() + 31 * structure.len() + 7 * model_lines.len()
-    ));
-    std::fs::create_dir_all(&dir).unwrap();
-    std::fs::write(dir.join("levels.csv"), table().csv).unwrap();
     let text = format!(
         "source \"levels.csv\"\n{structure}\nmodel m {{\n  y = x + dm + tm + x * dm + x * tm\n  {model_lines}\n}}\n{statement}\n"
     );
-    let parsed = syntax::parse(&text);
-    let c = check(&text, &parsed, &dir, &FileLoader);
-    let _ = std::fs::remove_dir_all(&dir);
-    assert!(!c.has_errors(), "{:?}", c.diagnostics);
-    let frame = &c.data.as_ref().unwrap().frame;
-    let f = fit(&c.models[0], frame, None, &FitOptions::default()).unwrap();
-    (c, f)
+    fit_written("levels.csv", &table().csv, &text)
 }
 
 fn probe(c: &Checked, f: &ModelFit) -> Result<ProbeResult, String> {
