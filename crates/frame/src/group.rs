@@ -180,7 +180,6 @@ pub struct GroupRanges<'g> {
     index: &'g GroupIndex,
     lo: Vec<f64>,
     hi: Vec<f64>,
-    scale: f64,
 }
 
 impl<'g> GroupRanges<'g> {
@@ -190,28 +189,36 @@ impl<'g> GroupRanges<'g> {
             index,
             lo: vec![f64::INFINITY; g],
             hi: vec![f64::NEG_INFINITY; g],
-            scale: 0.0,
         }
     }
 
     /// Take in the values of rows `start..start + values.len()`; NaN is missing.
     pub fn add(&mut self, start: usize, values: &[f64]) {
         let codes = self.index.codes.get(start..).unwrap_or(&[]);
+        // A missing id (`MISSING_CODE`) has no slot, and NaN compares false:
+        // both are skipped without a branch of their own.
         for (&k, &v) in codes.iter().zip(values) {
-            if k == MISSING_CODE || v.is_nan() {
-                continue;
-            }
             if let (Some(l), Some(h)) = (self.lo.get_mut(k as usize), self.hi.get_mut(k as usize)) {
-                *l = l.min(v);
-                *h = h.max(v);
-                self.scale = self.scale.max(v.abs());
+                if v < *l {
+                    *l = v;
+                }
+                if v > *h {
+                    *h = v;
+                }
             }
         }
     }
 
-    /// As [`GroupIndex::varies_within`] over every row taken in so far.
+    /// As [`GroupIndex::varies_within`] over every row taken in so far. The
+    /// scale, the largest absolute value, is the largest of the groups' ends.
     pub fn varies(&self) -> bool {
-        let tol = 1e-10 * self.scale;
+        let scale = self
+            .lo
+            .iter()
+            .zip(&self.hi)
+            .filter(|(l, h)| l <= h)
+            .fold(0.0f64, |s, (l, h)| s.max(l.abs()).max(h.abs()));
+        let tol = 1e-10 * scale;
         self.lo.iter().zip(&self.hi).any(|(&l, &h)| h - l > tol)
     }
 }
