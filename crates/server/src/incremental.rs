@@ -168,15 +168,22 @@ pub fn check(
                 None => matches!(r, Role::Broken),
             })
             .collect();
-        let wanted: HashSet<String> = roles
-            .iter()
-            .zip(&include)
-            .filter_map(|(r, inc)| match (r, inc) {
-                (Role::Request(ms), true) => Some(ms.clone()),
-                _ => None,
-            })
-            .flatten()
-            .collect();
+        let mut wanted: HashSet<String> = HashSet::new();
+        for (i, (r, inc)) in roles.iter().zip(&include).enumerate() {
+            let (Role::Request(ms), true) = (r, inc) else {
+                continue;
+            };
+            wanted.extend(ms.iter().cloned());
+            // The message about an unknown model lists the models above it,
+            // so they must be in the text that is checked.
+            if ms.iter().any(|m| !model_text.contains_key(m.as_str())) {
+                for above in &roles[..i] {
+                    if let Role::Model(n) = above {
+                        wanted.insert(n.clone());
+                    }
+                }
+            }
+        }
         for (i, r) in roles.iter().enumerate() {
             if let Role::Model(name) = r {
                 if wanted.contains(name) {
@@ -365,6 +372,9 @@ probe b: tenure across meetings at mean
         let mut cache = UnitCache::default();
         let edits = [
             BASE.to_string(),
+            // A probe of a model that does not exist: its message lists the
+            // models above it, which are unchanged and would be left out.
+            BASE.replace("probe b: tenure", "probe full: tenure"),
             // A new term in model b, then its probe changed, then a line
             // added above everything (all spans move), then model a broken.
             BASE.replace("tenure + meetngs", "tenure + meetngs + remote_w"),

@@ -76,7 +76,11 @@ fn edit() -> impl Strategy<Value = Edit> {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig { cases: 24, ..ProptestConfig::default() })]
+    // 24 cases by default; `PROPTEST_CASES=1000` for a longer search.
+    #![proptest_config(ProptestConfig {
+        cases: std::env::var("PROPTEST_CASES").ok().and_then(|v| v.parse().ok()).unwrap_or(24),
+        ..ProptestConfig::default()
+    })]
     #[test]
     fn random_edits_keep_the_text_in_step(edits in prop::collection::vec(edit(), 1..25)) {
         let rt = tokio::runtime::Builder::new_multi_thread()
