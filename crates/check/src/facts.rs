@@ -12,9 +12,9 @@
 //! cache travels with the frame in [`crate::DataView`], so it is never stale:
 //! a changed file is read into a new frame, which comes with a new cache.
 //!
-//! The cache is bounded: when what it holds passes its budget (row masks and
-//! panel orderings, at least 8 MB and 16 bytes per data row), it is emptied
-//! and refilled by the next checks.
+//! The cache is bounded: when what it holds passes its budget (row masks,
+//! panel orderings and the entries themselves; at least 8 MB and 16 bytes per
+//! data row), it is emptied and refilled by the next checks.
 
 use std::collections::HashMap;
 use std::sync::atomic::{AtomicU64, Ordering};
@@ -254,7 +254,11 @@ impl Facts {
             .map(|&g| lookup(&known, g).unwrap_or(false))
             .collect();
         let varies = known.varies;
-        self.lock().products.insert(k, known);
+        // Entries are small, but a long editing session makes many: count them.
+        let bytes = 64 + k.factors.iter().map(|(f, _)| f.0.len() + 8).sum::<usize>();
+        let mut inner = self.lock();
+        self.reserve(&mut inner, bytes);
+        inner.products.insert(k, known);
         Variation { varies, within }
     }
 
@@ -280,7 +284,9 @@ impl Facts {
                 first.get_or_insert(row);
             }
         }
-        self.lock().domains.insert(k, (n_bad, first));
+        let mut inner = self.lock();
+        self.reserve(&mut inner, 64 + k.0 .0.len());
+        inner.domains.insert(k, (n_bad, first));
         (n_bad, first)
     }
 
@@ -302,7 +308,14 @@ impl Facts {
             Evaluated::Codes { levels, .. } => Some(Arc::new(levels)),
             _ => None,
         };
-        self.lock().levels.insert(k, levels.clone());
+        let bytes = 64
+            + k.0.len()
+            + levels
+                .as_ref()
+                .map_or(0, |l| l.iter().map(|s| s.len() + 24).sum());
+        let mut inner = self.lock();
+        self.reserve(&mut inner, bytes);
+        inner.levels.insert(k, levels.clone());
         levels
     }
 
