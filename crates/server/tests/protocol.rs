@@ -122,16 +122,7 @@ async fn a_misspelt_column_is_reported_with_a_fix_that_works() {
     "#]],
     );
 
-    let actions = s
-        .request(
-            "textDocument/codeAction",
-            json!({
-                "textDocument": {"uri": uri},
-                "range": range_json([6, 22, 6, 22]),
-                "context": {"diagnostics": []}
-            }),
-        )
-        .await;
+    let actions = s.code_actions(&uri, [6, 22, 6, 22]).await;
     let a = &actions[0];
     let edit = &a["edit"]["changes"][&uri][0];
     check(
@@ -173,16 +164,7 @@ model m {
         4:11-4:30 hint within-product: `suppliers*digital` multiplies variables that change within `firm`, so under `fixed firm` it still mixes differences between firm units with changes inside them; `within(suppliers, firm) * within(digital, firm)` is the purely within-unit interaction
     "#]],
     );
-    let actions = s
-        .request(
-            "textDocument/codeAction",
-            json!({
-                "textDocument": {"uri": uri},
-                "range": range_json([4, 0, 4, 30]),
-                "context": {"diagnostics": []}
-            }),
-        )
-        .await;
+    let actions = s.code_actions(&uri, [4, 0, 4, 30]).await;
     let mut out = String::new();
     for a in actions.as_array().unwrap() {
         let e = &a["edit"]["changes"][&uri];

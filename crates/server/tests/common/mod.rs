@@ -126,6 +126,21 @@ impl TestServer {
         .await;
         self.diagnostics(uri, version).await
     }
+
+    /// The code actions the server offers for a range, with no diagnostics
+    /// sent along (the server finds them itself).
+    #[allow(dead_code)] // not every test file asks for code actions
+    pub async fn code_actions(&mut self, uri: &str, range: [u32; 4]) -> Value {
+        self.request(
+            "textDocument/codeAction",
+            json!({
+                "textDocument": {"uri": uri},
+                "range": range_json(range),
+                "context": {"diagnostics": []}
+            }),
+        )
+        .await
+    }
 }
 
 pub fn range_json([l0, c0, l1, c1]: [u32; 4]) -> Value {
