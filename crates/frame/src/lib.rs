@@ -26,7 +26,7 @@ mod summary;
 mod tokenize;
 
 pub use group::GroupRanges;
-pub use summary::summarize;
+pub use summary::{summarize, summarize_column};
 
 /// Code of a missing value in a categorical column or a group index.
 pub const MISSING_CODE: u32 = u32::MAX;

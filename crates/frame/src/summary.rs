@@ -1,5 +1,7 @@
 //! What `describe` shows per column.
 
+use std::sync::Arc;
+
 use crate::{ColumnData, ColumnSummary, Frame, GroupIndex, GroupSummary};
 
 /// Summaries of every column, with ICC(1) and within-variation per grouping column.
@@ -12,59 +14,67 @@ use crate::{ColumnData, ColumnSummary, Frame, GroupIndex, GroupSummary};
 /// columns of the frame are skipped: the caller reports unknown names, with
 /// the nearest existing one, before it asks for summaries.
 pub fn summarize(frame: &Frame, groupings: &[&str]) -> Vec<ColumnSummary> {
-    let indexes: Vec<(&str, GroupIndex)> = groupings
+    let columns: Vec<usize> = groupings
         .iter()
-        .filter_map(|&g| frame.column(g).map(|c| (g, GroupIndex::from_column(c))))
+        .filter_map(|&g| frame.column_index(g))
         .collect();
-    frame
-        .columns()
-        .iter()
-        .map(|col| {
-            let missing = col.n_missing();
-            let n = col.len() - missing;
-            match &col.data {
-                ColumnData::Numeric(num) => {
-                    let (mean, sd, min, max) = moments(&num.values);
-                    ColumnSummary {
-                        name: col.name.clone(),
-                        levels: None,
-                        n,
-                        missing,
-                        mean,
-                        sd,
-                        min,
-                        max,
-                        by_group: indexes
-                            .iter()
-                            .map(|(g, ix)| GroupSummary {
-                                grouping: g.to_string(),
-                                icc1: crate::icc1(&num.values, ix),
-                                varies_within: ix.varies_within(&num.values),
-                            })
-                            .collect(),
-                    }
-                }
-                ColumnData::Categorical(cat) => ColumnSummary {
-                    name: col.name.clone(),
-                    levels: Some(cat.levels.len()),
-                    n,
-                    missing,
-                    mean: None,
-                    sd: None,
-                    min: None,
-                    max: None,
-                    by_group: indexes
-                        .iter()
-                        .map(|(g, ix)| GroupSummary {
-                            grouping: g.to_string(),
-                            icc1: None,
-                            varies_within: ix.codes_vary_within(&cat.codes),
-                        })
-                        .collect(),
-                },
-            }
-        })
+    (0..frame.columns().len())
+        .map(|c| summarize_column(frame, c, &columns))
         .collect()
+}
+
+/// The summary of one column, with ICC(1) and within-variation for each
+/// grouping column (by index). Group indexes come from the frame's cache,
+/// and nothing is copied: the language server asks this on every hover.
+pub fn summarize_column(frame: &Frame, column: usize, groupings: &[usize]) -> ColumnSummary {
+    let col = &frame.columns()[column];
+    let indexes: Vec<(&str, Arc<GroupIndex>)> = groupings
+        .iter()
+        .map(|&g| (frame.columns()[g].name.as_str(), frame.group_index(g)))
+        .collect();
+    let missing = col.n_missing();
+    let n = col.len() - missing;
+    match &col.data {
+        ColumnData::Numeric(num) => {
+            let (mean, sd, min, max) = moments(&num.values);
+            ColumnSummary {
+                name: col.name.clone(),
+                levels: None,
+                n,
+                missing,
+                mean,
+                sd,
+                min,
+                max,
+                by_group: indexes
+                    .iter()
+                    .map(|(g, ix)| GroupSummary {
+                        grouping: g.to_string(),
+                        icc1: crate::icc1(&num.values, ix),
+                        varies_within: ix.varies_within(&num.values),
+                    })
+                    .collect(),
+            }
+        }
+        ColumnData::Categorical(cat) => ColumnSummary {
+            name: col.name.clone(),
+            levels: Some(cat.levels.len()),
+            n,
+            missing,
+            mean: None,
+            sd: None,
+            min: None,
+            max: None,
+            by_group: indexes
+                .iter()
+                .map(|(g, ix)| GroupSummary {
+                    grouping: g.to_string(),
+                    icc1: None,
+                    varies_within: ix.codes_vary_within(&cat.codes),
+                })
+                .collect(),
+        },
+    }
 }
 
 /// Mean, SD (n − 1), min and max of the non-NaN values. Two passes: the sum

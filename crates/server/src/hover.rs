@@ -1,7 +1,7 @@
 //! Hover text, in markdown: a column's summary against the data, a function's
 //! documentation, a model's expanded terms, a `let` definition.
 
-use frame::{ColumnData, Frame};
+use frame::ColumnData;
 use syntax::Parsed;
 
 use crate::analysis::Analysis;
@@ -102,16 +102,8 @@ fn column(name: &str, last: Option<&Analysis>) -> Option<String> {
     let idx = frame.column_index(name)?;
     groupings.retain(|&g| g != idx);
     groupings.dedup();
-    // Summarize a frame of just this column and its groupings: the same
-    // function as `slopewise describe`, without touching the other columns.
-    let mut cols = vec![col.clone()];
-    cols.extend(groupings.iter().map(|&g| frame.columns()[g].clone()));
-    let small = Frame::from_columns(cols);
-    let names: Vec<&str> = groupings
-        .iter()
-        .map(|&g| frame.columns()[g].name.as_str())
-        .collect();
-    let s = frame::summarize(&small, &names).into_iter().next()?;
+    // The same summary as `slopewise describe`, for this column only.
+    let s = frame::summarize_column(frame, idx, &groupings);
     let ty = match &col.data {
         ColumnData::Numeric(_) => "numeric".to_string(),
         ColumnData::Categorical(c) => format!("text, {} levels", c.levels.len()),

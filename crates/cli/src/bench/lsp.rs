@@ -56,6 +56,7 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
         new_terms,
         typing,
         lets: let_latencies,
+        hovers,
         load,
         rss,
         rss_idle,
@@ -109,6 +110,13 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
     );
     let _ = writeln!(
         out,
+        "hover over a column (summary with ICC(1) by team and dept): mean {:.1} ms, max {:.1} ms over {} requests",
+        mean(&hovers),
+        max(&hovers),
+        hovers.len()
+    );
+    let _ = writeln!(
+        out,
         "server memory: resident {:.0} MB ({:.2}x the numbers) after the last edit, {:.0} MB ({:.2}x) once idle; peak {:.0} MB ({:.2}x) (target <= 2x)",
         mb(rss),
         rss as f64 / numeric_bytes as f64,
@@ -132,6 +140,8 @@ struct Measured {
     typing: Vec<f64>,
     /// Edits that change a `let` definition to a new value and back.
     lets: Vec<f64>,
+    /// Hover requests over a column name, to the reply.
+    hovers: Vec<f64>,
     load: f64,
     /// Resident right after the last edit, and after three idle seconds.
     rss: usize,
@@ -142,6 +152,7 @@ struct Measured {
 /// Edits timed in `let` lines, and edits adding a new term.
 const LET_EDITS: usize = 6;
 const NEW_TERM_EDITS: usize = 8;
+const HOVERS: usize = 10;
 
 /// Terms typed character by character (ASCII, so bytes are UTF-16 units).
 const TYPED: [&str; 3] = [" + x3_c * x1_b", " + x5_w * x2", " + x4^2 + x4_b"];
@@ -251,12 +262,36 @@ fn session(
         let (line, col) = lets[(k / 2 * 4) % lets.len()];
         let_latencies.push(timed(type_or_erase(k, line, col, "0.5*"))?);
     }
+    // Hover over a column in a `let` line: its summary with ICC(1) by team
+    // and by department, computed over every row on each request.
+    let mut hovers = Vec::new();
+    for k in 0..HOVERS {
+        let (line, _) = lets[(k * 3) % lets.len()];
+        let col = lines[line]
+            .find("within(")
+            .map_or(4, |c| c + "within(".len() + 1);
+        let id = 1000 + k as i64;
+        let start = Instant::now();
+        send(
+            stdin,
+            &json!({"jsonrpc": "2.0", "id": id, "method": "textDocument/hover", "params": {
+                "textDocument": {"uri": uri}, "position": {"line": line, "character": col}}}),
+        )?;
+        let reply = wait_for(messages, |m| m["id"] == id, Duration::from_secs(60))?;
+        if !reply["result"]["contents"].to_string().contains("ICC") {
+            return Err(format!(
+                "hover at {line}:{col} gave no column summary: {reply}"
+            ));
+        }
+        hovers.push(start.elapsed().as_secs_f64() * 1e3);
+    }
     let (rss, hwm) = memory(child.id())?;
     // An editor's server is idle most of the time: measure again once it
     // has had the chance to return freed memory.
     std::thread::sleep(server::memory::IDLE_AFTER * 3);
     let (rss_idle, _) = memory(child.id())?;
     Ok(Measured {
+        hovers,
         rss_idle,
         model: latencies,
         new_terms,
