@@ -57,6 +57,7 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
         typing,
         lets: let_latencies,
         hovers,
+        completions,
         load,
         rss,
         rss_idle,
@@ -117,6 +118,13 @@ fn measure(dir: &Path, rows: usize, edits: usize) -> Result<String, String> {
     );
     let _ = writeln!(
         out,
+        "completion in a formula (columns, `let` names, functions): mean {:.1} ms, max {:.1} ms over {} requests",
+        mean(&completions),
+        max(&completions),
+        completions.len()
+    );
+    let _ = writeln!(
+        out,
         "server memory: resident {:.0} MB ({:.2}x the numbers) after the last edit, {:.0} MB ({:.2}x) once idle; peak {:.0} MB ({:.2}x) (target <= 2x)",
         mb(rss),
         rss as f64 / numeric_bytes as f64,
@@ -142,6 +150,8 @@ struct Measured {
     lets: Vec<f64>,
     /// Hover requests over a column name, to the reply.
     hovers: Vec<f64>,
+    /// Completion requests in a formula, to the reply.
+    completions: Vec<f64>,
     load: f64,
     /// Resident right after the last edit, and after three idle seconds.
     rss: usize,
@@ -285,6 +295,26 @@ fn session(
         }
         hovers.push(start.elapsed().as_secs_f64() * 1e3);
     }
+    // Completion at the start of a formula's terms: columns, `let` names and
+    // functions, with details from the last check.
+    let mut completions = Vec::new();
+    for k in 0..HOVERS {
+        let (line, col) = formulas[(k * 5) % formulas.len()];
+        let id = 2000 + k as i64;
+        let start = Instant::now();
+        send(
+            stdin,
+            &json!({"jsonrpc": "2.0", "id": id, "method": "textDocument/completion", "params": {
+                "textDocument": {"uri": uri}, "position": {"line": line, "character": col}}}),
+        )?;
+        let reply = wait_for(messages, |m| m["id"] == id, Duration::from_secs(60))?;
+        if !reply["result"].to_string().contains("x1_w") {
+            return Err(format!(
+                "completion at {line}:{col} did not offer `x1_w`: {reply}"
+            ));
+        }
+        completions.push(start.elapsed().as_secs_f64() * 1e3);
+    }
     let (rss, hwm) = memory(child.id())?;
     // An editor's server is idle most of the time: measure again once it
     // has had the chance to return freed memory.
@@ -292,6 +322,7 @@ fn session(
     let (rss_idle, _) = memory(child.id())?;
     Ok(Measured {
         hovers,
+        completions,
         rss_idle,
         model: latencies,
         new_terms,
