@@ -1,7 +1,9 @@
 //! `slopewise bench lsp`: keystroke-to-diagnostics latency of the language
 //! server on a 300-line model file against a large generated CSV (already
-//! loaded), and the server's resident memory beside the size of the numeric
-//! data. The server runs as a child process over stdio, as an editor runs it.
+//! loaded): keystrokes in formulas, terms typed a character at a time, new
+//! terms, changed `let` definitions; then hover and completion replies, and
+//! the server's resident memory beside the size of the numeric data. The
+//! server runs as a child process over stdio, as an editor runs it.
 
 use std::fmt::Write as _;
 use std::io::{BufRead, BufReader, Read, Write};
