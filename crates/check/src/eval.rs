@@ -297,47 +297,38 @@ impl<'a> Evaluator<'a> {
 
     fn binary(&self, op: BinaryOp, a: &Value, b: &Value) -> Evaluated {
         let n = self.n();
+        // A numeric column is read in place (`None`) rather than evaluated into a copy.
         let operand = |v: &Value| match v {
             Value::Column(c) if self.frame.columns()[*c].as_numeric().is_some() => None,
             other => Some(self.eval(other)),
         };
         let (ea, eb) = (operand(a), operand(b));
-        // Numeric columns are read in place rather than copied.
-        let (ea, eb) = match (ea, eb) {
-            (Some(ea), Some(eb)) => (ea, eb),
-            (ea, eb) => {
-                let g = arithmetic(op);
-                return match (ea, eb) {
-                    (None, Some(Evaluated::Scalar(y))) => map(self.numbers_cow(a), |x| g(x, y)),
-                    (Some(Evaluated::Scalar(x)), None) => map(self.numbers_cow(b), |y| g(x, y)),
-                    (ea, eb) => {
-                        let side = |e: Option<Evaluated>, v: &Value| {
-                            e.map_or_else(|| self.numbers_cow(v), |e| Cow::Owned(e.into_numbers(n)))
-                        };
-                        let (xa, xb) = (side(ea, a), side(eb, b));
-                        Evaluated::Numbers(
-                            xa.iter().zip(xb.iter()).map(|(&x, &y)| g(x, y)).collect(),
-                        )
-                    }
-                };
-            }
-        };
-        if matches!(op, BinaryOp::Eq | BinaryOp::Ne) {
-            if let Some(r) = compare_levels(op, &ea, &eb).or_else(|| compare_levels(op, &eb, &ea)) {
+        if let (BinaryOp::Eq | BinaryOp::Ne, Some(ea), Some(eb)) = (op, &ea, &eb) {
+            if let Some(r) = compare_levels(op, ea, eb).or_else(|| compare_levels(op, eb, ea)) {
                 return r;
             }
         }
+        let side = |e: Option<Evaluated>, v: &Value| match e {
+            None => Side::Values(self.numbers_cow(v)),
+            Some(Evaluated::Scalar(x)) => Side::Scalar(x),
+            Some(other) => Side::Values(Cow::Owned(other.into_numbers(n))),
+        };
         let g = arithmetic(op);
-        match (ea, eb) {
-            (Evaluated::Scalar(x), Evaluated::Scalar(y)) => Evaluated::Scalar(g(x, y)),
-            (Evaluated::Scalar(x), other) => map(Cow::Owned(other.into_numbers(n)), |y| g(x, y)),
-            (other, Evaluated::Scalar(y)) => map(Cow::Owned(other.into_numbers(n)), |x| g(x, y)),
-            (a, b) => {
-                let (a, b) = (a.into_numbers(n), b.into_numbers(n));
-                Evaluated::Numbers(a.iter().zip(&b).map(|(&x, &y)| g(x, y)).collect())
+        match (side(ea, a), side(eb, b)) {
+            (Side::Scalar(x), Side::Scalar(y)) => Evaluated::Scalar(g(x, y)),
+            (Side::Scalar(x), Side::Values(v)) => map(v, |y| g(x, y)),
+            (Side::Values(v), Side::Scalar(y)) => map(v, |x| g(x, y)),
+            (Side::Values(xa), Side::Values(xb)) => {
+                Evaluated::Numbers(xa.iter().zip(xb.iter()).map(|(&x, &y)| g(x, y)).collect())
             }
         }
     }
+}
+
+/// One operand of a binary operator: a single number, or one per row.
+enum Side<'a> {
+    Scalar(f64),
+    Values(Cow<'a, [f64]>),
 }
 
 /// A binary operator on two numbers: missing when either is, and when the

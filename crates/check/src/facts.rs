@@ -171,7 +171,7 @@ impl Facts {
             key(cond, panel),
             || {
                 let x = ev.numbers_cow(cond);
-                let mask = Mask::from_values(&x, |v| !v.is_nan() && v != 0.0);
+                let mask = Mask::from_predicate(&x, |v: f64| !v.is_nan() && v != 0.0);
                 (mask.count() < ev.n()).then_some(mask)
             },
         )
@@ -351,8 +351,8 @@ impl Facts {
         &self,
         ev: &Evaluator<'_>,
         unit: usize,
-        times: impl FnOnce() -> Vec<f64>,
         time: usize,
+        times: impl FnOnce() -> Vec<f64>,
     ) -> Arc<PanelIndex> {
         if let Some(p) = self.lock().panels.get(&(unit, time)) {
             return p.clone();

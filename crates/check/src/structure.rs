@@ -167,7 +167,7 @@ impl Ctx<'_> {
             self.push(Diagnostic::warning(codes::PANEL_TIME, time.span, msg));
         }
         let ev = crate::eval::Evaluator::new(&frame, None);
-        let index = facts.panel_index(&ev, u, || times.clone(), t);
+        let index = facts.panel_index(&ev, u, t, || times.clone());
         let (dups, n_dups) = index.duplicates(1);
         let span = unit.span.cover(time.span);
         if let Some(&(a, b)) = dups.first() {

@@ -64,13 +64,9 @@ impl Mask {
         Mask::from_predicate(codes, |c| c == crate::MISSING_CODE)
     }
 
-    /// Set where `keep` holds for the value, 64 rows per word.
-    pub fn from_values(values: &[f64], keep: impl Fn(f64) -> bool) -> Mask {
-        Mask::from_predicate(values, keep)
-    }
-
-    /// Set where `set` holds, built 64 rows to a word with no branch per row.
-    fn from_predicate<T: Copy>(items: &[T], set: impl Fn(T) -> bool) -> Mask {
+    /// Set where `set` holds for the row's item, built 64 rows to a word with
+    /// no branch per row.
+    pub fn from_predicate<T: Copy>(items: &[T], set: impl Fn(T) -> bool) -> Mask {
         let mut bits = Vec::with_capacity(items.len().div_ceil(64));
         let mut count = 0;
         for block in items.chunks(64) {
@@ -128,15 +124,15 @@ impl Mask {
         self.blank_unset_at(0, values);
     }
 
-    /// As [`Mask::blank_unset`] for the rows `start..start + values.len()`;
-    /// `start` must be a multiple of 64 (a word boundary), else nothing is blanked
-    /// and the caller's debug build stops.
+    /// As [`Mask::blank_unset`] for the rows `start..start + values.len()`: a
+    /// word at a time when `start` is on a word boundary, row by row otherwise.
     pub fn blank_unset_at(&self, start: usize, values: &mut [f64]) {
-        debug_assert!(
-            start.is_multiple_of(64),
-            "row {start} is not on a word boundary"
-        );
         if !start.is_multiple_of(64) {
+            for (r, v) in values.iter_mut().enumerate() {
+                if !self.is_set(start + r) {
+                    *v = f64::NAN;
+                }
+            }
             return;
         }
         let words = self.bits.get(start / 64..).unwrap_or(&[]);
@@ -227,10 +223,13 @@ mod tests {
             Mask::from_missing_codes(&codes).to_bools(),
             [false, true, false]
         );
-        let kept = Mask::from_values(&[1.0, 0.0, f64::NAN, -2.0], |v| !v.is_nan() && v != 0.0);
+        let kept = Mask::from_predicate(&[1.0, 0.0, f64::NAN, -2.0], |v: f64| {
+            !v.is_nan() && v != 0.0
+        });
         assert_eq!(kept.to_bools(), [true, false, false, true]);
         let mut v = vec![1.0, 2.0, 3.0, 4.0];
         kept.blank_unset(&mut v);
+        assert!(v[0] == 1.0 && v[1].is_nan() && v[2].is_nan() && v[3] == 4.0);
         // From a later word: rows 64..130 of a mask with rows 64 and 129 unset.
         let mut late = Mask::full(130);
         late.and_not_assign(&Mask::from_bools(
@@ -240,6 +239,9 @@ mod tests {
         late.blank_unset_at(64, &mut tail);
         assert!(tail[0].is_nan() && tail[65].is_nan());
         assert_eq!(tail.iter().filter(|x| x.is_nan()).count(), 2);
-        assert!(v[0] == 1.0 && v[1].is_nan() && v[2].is_nan() && v[3] == 4.0);
+        // Off a word boundary, row by row: rows 63..66 hold 64 unset.
+        let mut off = vec![1.0; 3];
+        late.blank_unset_at(63, &mut off);
+        assert!(off[0] == 1.0 && off[1].is_nan() && off[2] == 1.0);
     }
 }

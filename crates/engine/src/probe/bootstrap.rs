@@ -2,9 +2,10 @@
 //! recompute a quantity from each draw's coefficients.
 //!
 //! Clusters are the model's cluster grouping, else its first `fixed` grouping,
-//! else the panel unit, else the outermost level of the file's `groups`. The raw design (terms evaluated on the estimation
-//! sample, before the within transform) is built once; each draw concatenates
-//! the rows of its drawn clusters. A fixed grouping nested in the clusters (firm
+//! else the panel unit, else the outermost level of the file's `groups`. The
+//! raw design (terms evaluated on the estimation sample, before the within
+//! transform) is built once; each draw concatenates the rows of its drawn
+//! clusters. A fixed grouping nested in the clusters (firm
 //! effects under firm clusters) gets distinct codes for every copy of a
 //! duplicated cluster, so each copy has its own effect; a crossed grouping
 //! (year effects) keeps its codes, as the copies share those years. Draws are
