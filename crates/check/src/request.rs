@@ -506,7 +506,7 @@ fn buried_diagnostic(
     span: Span,
 ) -> Diagnostic {
     let msg = format!(
-        "`{name}` enters model `{}` only inside `{inside}`, and probing follows a variable only where it is a term itself or the argument of `log`, `sqrt`, `center` or `z`; name the expression with `let` (for example `let {} = {inside}`) and probe that name",
+        "`{name}` enters model `{}` only inside `{inside}`, and probing follows a variable only where it is a term itself or the whole argument of `log`, `sqrt`, `center` or `z`; name the expression with `let` (for example `let {} = {inside}`) and probe that name",
         m.name,
         suggested_name(name)
     );

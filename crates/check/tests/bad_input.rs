@@ -90,6 +90,7 @@ const KEY: &[(&str, Severity, &str, usize, usize, &str)] = &[
     ("missing_lower_order", Severity::Warning, "missing-lower-order", 2, 28, "`remote*meet` is in the model without its lower-order term `meet`"),
     ("no_interaction", Severity::Error, "no-interaction", 3, 26, "`meet` does not moderate `remote` in model `m`"),
     ("no_interaction", Severity::Error, "no-square", 4, 12, "`turning` needs a squared term of `remote`"),
+    ("buried_moderator", Severity::Error, "no-interaction", 3, 24, "`meet` enters model `m` only inside `log(meet+1)`"),
 ];
 
 #[test]

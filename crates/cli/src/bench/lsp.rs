@@ -274,6 +274,22 @@ fn session(
         let (line, col) = lets[(k / 2 * 4) % lets.len()];
         let_latencies.push(timed(type_or_erase(k, line, col, "0.5*"))?);
     }
+    // A request at a position, timed to its reply; `want` must be in the reply.
+    let mut ask = |id: i64, method: &str, (line, col): (usize, usize), want: &str| {
+        let start = Instant::now();
+        send(
+            stdin,
+            &json!({"jsonrpc": "2.0", "id": id, "method": method, "params": {
+                "textDocument": {"uri": uri}, "position": {"line": line, "character": col}}}),
+        )?;
+        let reply = wait_for(messages, |m| m["id"] == id, Duration::from_secs(60))?;
+        if !reply["result"].to_string().contains(want) {
+            return Err(format!(
+                "{method} at {line}:{col} gave no `{want}`: {reply}"
+            ));
+        }
+        Ok::<f64, String>(start.elapsed().as_secs_f64() * 1e3)
+    };
     // Hover over a column in a `let` line: its summary with ICC(1) by team
     // and by department, computed over every row on each request.
     let mut hovers = Vec::new();
@@ -282,40 +298,19 @@ fn session(
         let col = lines[line]
             .find("within(")
             .map_or(4, |c| c + "within(".len() + 1);
-        let id = 1000 + k as i64;
-        let start = Instant::now();
-        send(
-            stdin,
-            &json!({"jsonrpc": "2.0", "id": id, "method": "textDocument/hover", "params": {
-                "textDocument": {"uri": uri}, "position": {"line": line, "character": col}}}),
-        )?;
-        let reply = wait_for(messages, |m| m["id"] == id, Duration::from_secs(60))?;
-        if !reply["result"]["contents"].to_string().contains("ICC") {
-            return Err(format!(
-                "hover at {line}:{col} gave no column summary: {reply}"
-            ));
-        }
-        hovers.push(start.elapsed().as_secs_f64() * 1e3);
+        hovers.push(ask(
+            1000 + k as i64,
+            "textDocument/hover",
+            (line, col),
+            "ICC",
+        )?);
     }
     // Completion at the start of a formula's terms: columns, `let` names and
     // functions, with details from the last check.
     let mut completions = Vec::new();
     for k in 0..HOVERS {
-        let (line, col) = formulas[(k * 5) % formulas.len()];
-        let id = 2000 + k as i64;
-        let start = Instant::now();
-        send(
-            stdin,
-            &json!({"jsonrpc": "2.0", "id": id, "method": "textDocument/completion", "params": {
-                "textDocument": {"uri": uri}, "position": {"line": line, "character": col}}}),
-        )?;
-        let reply = wait_for(messages, |m| m["id"] == id, Duration::from_secs(60))?;
-        if !reply["result"].to_string().contains("x1_w") {
-            return Err(format!(
-                "completion at {line}:{col} did not offer `x1_w`: {reply}"
-            ));
-        }
-        completions.push(start.elapsed().as_secs_f64() * 1e3);
+        let at = formulas[(k * 5) % formulas.len()];
+        completions.push(ask(2000 + k as i64, "textDocument/completion", at, "x1_w")?);
     }
     let (rss, hwm) = memory(child.id())?;
     // An editor's server is idle most of the time: measure again once it
